@@ -1,0 +1,207 @@
+/* trace.h - trace format v1: records, file header, block writer and reader.
+ *
+ * The byte layout is specified in docs/trace-format.md; that document is the
+ * reference and the constants below follow it. */
+#ifndef MSGCENSUS_TRACE_H
+#define MSGCENSUS_TRACE_H
+
+#include <stddef.h> /* size_t */
+#include <stdint.h> /* fixed-width integers */
+
+#include "common.h"
+#include "error.h"
+
+/* ---- format constants (docs/trace-format.md) ---------------------------- */
+
+#define MC_TRACE_MAGIC "MCTRACE\x1a" /* 8 bytes at offset 0 */
+#define MC_TRACE_MAGIC_LEN 8
+#define MC_TRACE_VERSION_MAJOR 1 /* a reader rejects any other major */
+#define MC_TRACE_VERSION_MINOR 0 /* a reader accepts any minor of its major */
+#define MC_TRACE_ENDIAN_MARK 0x01020304u
+#define MC_TRACE_HEADER_SIZE 128u  /* file header, v1.0 */
+#define MC_TRACE_HOST_LEN 64u      /* host name field, NUL padded */
+#define MC_BLOCK_MAGIC 0x4b42434du /* "MCBK" little-endian */
+#define MC_BLOCK_HEADER_SIZE 40u
+#define MC_RECORD_SIZE 48u         /* record size of v1.0 */
+#define MC_INDEX_MAGIC 0x5849434du /* "MCIX" little-endian */
+#define MC_TRAILER_MAGIC 0x444e434du /* "MCND" little-endian */
+#define MC_TRAILER_SIZE 16u
+#define MC_BLOCK_MAX_RECORDS (1u << 20)  /* reader's limit per block */
+#define MC_BLOCK_DEFAULT_RECORDS 16384u  /* 768 KiB raw per block */
+
+#define MC_PEER_NONE (-1)        /* no peer (collectives, or unknown) */
+#define MC_TAG_NONE (-1)         /* no tag (collectives, one-sided) */
+
+/* Record flags (mc_record.flags). */
+#define MC_RF_POSTED_SIZE 0x01u  /* receive: posted size, actual not known */
+#define MC_RF_IN_PLACE 0x02u     /* collective called with MPI_IN_PLACE */
+#define MC_RF_PER_PEER 0x04u     /* one of several per-peer records of a call */
+#define MC_RF_KNOWN_MASK 0x07u   /* reader rejects other bits in v1.0 */
+
+typedef enum mc_codec { MC_CODEC_NONE = 0, MC_CODEC_ZSTD = 1 } mc_codec;
+
+/* ---- records ------------------------------------------------------------ */
+
+/* One MPI call (or one direction of one call). On little-endian hosts this
+ * struct has exactly the on-disk layout of a v1.0 record (48 bytes, no
+ * padding), which lets the decoder copy records without per-field work. */
+typedef struct mc_record {
+    uint64_t bytes;      /* payload bytes (count x MPI_Type_size) */
+    uint64_t t_start_ns; /* call entry, ns since the trace's epoch */
+    uint64_t t_end_ns;   /* call exit; never earlier than t_start_ns */
+    uint32_t comm_id;    /* communicator id, same on every member rank */
+    uint32_t comm_size;  /* size of that communicator */
+    int32_t peer;        /* world rank of the peer, or MC_PEER_NONE */
+    int32_t tag;         /* message tag, or MC_TAG_NONE */
+    uint16_t op;         /* mc_op code */
+    uint8_t dir;         /* mc_dir: NONE, SEND or RECV */
+    uint8_t flags;       /* MC_RF_* bits */
+    uint32_t reserved;   /* zero in v1.0 */
+} mc_record;
+
+/* ---- file header -------------------------------------------------------- */
+
+typedef struct mc_trace_header {
+    uint16_t version_major;
+    uint16_t version_minor;
+    uint32_t flags;            /* zero in v1.0 */
+    int32_t app_rank;          /* world rank of the traced process */
+    int32_t app_size;          /* world size of the traced job */
+    uint64_t clock_res_ps;     /* clock resolution in picoseconds */
+    int64_t created_unix_ns;   /* creation time, ns since 1970-01-01 UTC */
+    uint64_t epoch_unix_ns;    /* t=0 of the record times, ns since 1970 */
+    char host[MC_TRACE_HOST_LEN + 1]; /* NUL-terminated host name */
+} mc_trace_header;
+
+/*! mc_trace_header_init() : a v1.0 header for @rank of @size, host and times
+ *  left empty/zero, clock resolution 1000 ps. */
+MC_API void mc_trace_header_init(mc_trace_header *hdr, int32_t rank,
+                                 int32_t size);
+
+/*! mc_trace_header_encode() / mc_trace_header_decode() :
+ *  Convert between the struct and the 128 on-disk bytes (with checksum).
+ *  decode checks magic, endianness marker, major version, checksum.
+ *  @return 0, or MC_EMAGIC / MC_EENDIAN / MC_EVERSION / MC_EHEADER. */
+MC_API void mc_trace_header_encode(const mc_trace_header *hdr,
+                                   unsigned char out[MC_TRACE_HEADER_SIZE]);
+MC_API int mc_trace_header_decode(const unsigned char *in, size_t len,
+                                  mc_trace_header *hdr, mc_errinfo *err);
+
+/*! mc_record_encode() / mc_record_decode() : one record to and from its 48
+ *  little-endian bytes (portable; used on big-endian hosts and in tests). */
+MC_API void mc_record_encode(const mc_record *rec,
+                             unsigned char out[MC_RECORD_SIZE]);
+MC_API void mc_record_decode(const unsigned char in[MC_RECORD_SIZE],
+                             mc_record *rec);
+
+/*! mc_record_check() : semantic check of one decoded record: known op code,
+ *  known direction and flags, t_end_ns >= t_start_ns, reserved zero.
+ *  @return 0 or MC_ERECORD with the reason in err->detail. */
+MC_API int mc_record_check(const mc_record *rec, mc_errinfo *err);
+
+/* ---- writer ------------------------------------------------------------- */
+
+typedef struct mc_writer_opts {
+    uint32_t block_records; /* records per block; 0 = default */
+    mc_codec codec;         /* MC_CODEC_NONE or MC_CODEC_ZSTD */
+    int zstd_level;         /* 0 = zstd's default */
+    int write_footer;       /* 1 (default via mc_writer_opts_init) = index */
+    int fsync_on_close;     /* 1 = fsync before close returns */
+} mc_writer_opts;
+
+typedef struct mc_trace_writer mc_trace_writer;
+
+/*! mc_writer_opts_init() : defaults: 16384 records per block, no codec,
+ *  footer on, no fsync. */
+MC_API void mc_writer_opts_init(mc_writer_opts *opts);
+
+/*! mc_trace_writer_open() :
+ *  Create (truncate) @path and write @hdr. @opts may be NULL (defaults).
+ *  Memory in use is bounded by one block (raw + compressed buffer).
+ *  @return 0 and *out, or a negative MC_E* code with @err filled. */
+MC_API int mc_trace_writer_open(const char *path, const mc_trace_header *hdr,
+                                const mc_writer_opts *opts,
+                                mc_trace_writer **out, mc_errinfo *err);
+
+/*! mc_trace_write() : append @n records; a full block is written out.
+ *  @return 0 or a negative MC_E* code (the writer is then unusable). */
+MC_API int mc_trace_write(mc_trace_writer *w, const mc_record *recs, size_t n,
+                          mc_errinfo *err);
+
+/*! mc_trace_writer_flush() : write the partial block now (if any). */
+MC_API int mc_trace_writer_flush(mc_trace_writer *w, mc_errinfo *err);
+
+/*! mc_trace_writer_close() : flush, write the footer (if enabled), close and
+ *  free. @w may be NULL. Always frees @w, even on error. */
+MC_API int mc_trace_writer_close(mc_trace_writer *w, mc_errinfo *err);
+
+/*! mc_trace_writer_abandon() : close the file without flushing the partial
+ *  block or writing a footer (what a crash leaves), and free @w. NULL ok. */
+MC_API void mc_trace_writer_abandon(mc_trace_writer *w);
+
+/*! mc_trace_writer_records() : records accepted so far. */
+MC_API uint64_t mc_trace_writer_records(const mc_trace_writer *w);
+
+/* ---- reader ------------------------------------------------------------- */
+
+/* Where one block lies in a file. */
+typedef struct mc_block_info {
+    uint64_t offset;   /* byte offset of the block header */
+    uint32_t nrecords; /* records in the block */
+    uint32_t stored_len; /* payload bytes after the header */
+    uint32_t seq;      /* block sequence number written by the writer */
+} mc_block_info;
+
+typedef struct mc_trace_reader mc_trace_reader;
+
+/*! mc_trace_open() : open @path and decode its header.
+ *  @return 0 and *out, or MC_EOPEN / MC_EMAGIC / MC_EVERSION / MC_EHEADER /
+ *  MC_ETRUNC / MC_EENDIAN with @err naming the file and offset. */
+MC_API int mc_trace_open(const char *path, mc_trace_reader **out,
+                         mc_errinfo *err);
+
+/*! mc_trace_close() : close and free; NULL is accepted. */
+MC_API void mc_trace_close(mc_trace_reader *r);
+
+/*! mc_trace_get_header() : the decoded header; valid until close. */
+MC_API const mc_trace_header *mc_trace_get_header(const mc_trace_reader *r);
+
+/*! mc_trace_file_size() : size of the file in bytes when it was opened. */
+MC_API uint64_t mc_trace_file_size(const mc_trace_reader *r);
+
+/*! mc_trace_index() :
+ *  The list of blocks. Uses the footer index when it is present and valid
+ *  (*from_footer = 1), otherwise walks the block headers from the start
+ *  (*from_footer = 0; @from_footer may be NULL). A walk stops at the first
+ *  damaged block header or at a truncated block, returning the intact blocks
+ *  before it and the error in @err with *complete = 0. The array is owned by
+ *  the reader and valid until close.
+ *  @return 0 (complete or not, see *complete), or a negative code when not
+ *  even the list could be built (I/O error, out of memory). */
+MC_API int mc_trace_index(mc_trace_reader *r, const mc_block_info **blocks,
+                          size_t *nblocks, int *from_footer, int *complete,
+                          mc_errinfo *err);
+
+/*! mc_trace_seek_block() : position the reader at the block @b (from the
+ *  index or from a partition plan); the next mc_trace_next_block() reads it. */
+MC_API int mc_trace_seek_block(mc_trace_reader *r, const mc_block_info *b,
+                               uint64_t block_index, mc_errinfo *err);
+
+/*! mc_trace_next_block() :
+ *  Read, verify (header check, xxHash64 of the raw bytes), decode and return
+ *  the next block. *recs points into the reader's buffer, valid until the
+ *  next call. Records are not semantically checked here; see
+ *  mc_record_check().
+ *  @return 1 when a block was returned, 0 at the clean end of the blocks
+ *  (footer or end of file), or a negative code: MC_ETRUNC, MC_EBLOCK,
+ *  MC_ECHECKSUM, MC_ECODEC, MC_EIO, with file, block index and offset in @err.
+ *  After an error the reader can be repositioned with mc_trace_seek_block(). */
+MC_API int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
+                               size_t *nrecs, mc_errinfo *err);
+
+/*! mc_trace_current_block() : index and offset of the block returned last
+ *  (or about to be read). */
+MC_API void mc_trace_current_block(const mc_trace_reader *r,
+                                   uint64_t *block_index, uint64_t *offset);
+
+#endif /* MSGCENSUS_TRACE_H */
