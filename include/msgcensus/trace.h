@@ -28,6 +28,9 @@
 #define MC_TRAILER_SIZE 16u
 #define MC_BLOCK_MAX_RECORDS (1u << 20)  /* reader's limit per block */
 #define MC_BLOCK_DEFAULT_RECORDS 16384u  /* 768 KiB raw per block */
+#define MC_BLOCK_MAX_RAW_BYTES (64u << 20) /* reader's limit on raw_len */
+#define MC_TRACE_MAX_HEADER_SIZE 65536u  /* reader's limit on header_size */
+#define MC_FOOTER_ENTRY_SIZE 16u         /* one footer index entry */
 
 #define MC_PEER_NONE (-1)        /* no peer (collectives, or unknown) */
 #define MC_TAG_NONE (-1)         /* no tag (collectives, one-sided) */
@@ -124,6 +127,7 @@ MC_API int mc_trace_writer_open(const char *path, const mc_trace_header *hdr,
                                 mc_trace_writer **out, mc_errinfo *err);
 
 /*! mc_trace_write() : append @n records; a full block is written out.
+ *  Records are written as given (not checked; see mc_record_check()).
  *  @return 0 or a negative MC_E* code (the writer is then unusable). */
 MC_API int mc_trace_write(mc_trace_writer *w, const mc_record *recs, size_t n,
                           mc_errinfo *err);
@@ -154,7 +158,9 @@ typedef struct mc_block_info {
 
 typedef struct mc_trace_reader mc_trace_reader;
 
-/*! mc_trace_open() : open @path and decode its header.
+/*! mc_trace_open() : open @path and decode its header. Any bytes are
+ *  accepted as input: sizes read from the file are checked against the
+ *  limits above and the file size before anything is allocated.
  *  @return 0 and *out, or MC_EOPEN / MC_EMAGIC / MC_EVERSION / MC_EHEADER /
  *  MC_ETRUNC / MC_EENDIAN with @err naming the file and offset. */
 MC_API int mc_trace_open(const char *path, mc_trace_reader **out,
@@ -176,6 +182,8 @@ MC_API uint64_t mc_trace_file_size(const mc_trace_reader *r);
  *  damaged block header or at a truncated block, returning the intact blocks
  *  before it and the error in @err with *complete = 0. The array is owned by
  *  the reader and valid until close.
+ *  A damaged footer is not an error here: the walk replaces it (use
+ *  mc_trace_verify() to report it).
  *  @return 0 (complete or not, see *complete), or a negative code when not
  *  even the list could be built (I/O error, out of memory). */
 MC_API int mc_trace_index(mc_trace_reader *r, const mc_block_info **blocks,
@@ -183,7 +191,10 @@ MC_API int mc_trace_index(mc_trace_reader *r, const mc_block_info **blocks,
                           mc_errinfo *err);
 
 /*! mc_trace_seek_block() : position the reader at the block @b (from the
- *  index or from a partition plan); the next mc_trace_next_block() reads it. */
+ *  index or from a partition plan); the next mc_trace_next_block() reads it.
+ *  @block_index is the block's index in this file (its sequence number),
+ *  which the reader checks against the block header.
+ *  @return 0, or MC_ERANGE when b->offset lies outside the file. */
 MC_API int mc_trace_seek_block(mc_trace_reader *r, const mc_block_info *b,
                                uint64_t block_index, mc_errinfo *err);
 
@@ -203,5 +214,31 @@ MC_API int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
  *  (or about to be read). */
 MC_API void mc_trace_current_block(const mc_trace_reader *r,
                                    uint64_t *block_index, uint64_t *offset);
+
+/* ---- whole-file check --------------------------------------------------- */
+
+/* What mc_trace_verify() found in one file. */
+typedef struct mc_trace_check {
+    mc_trace_header header; /* valid when header_ok */
+    int header_ok;          /* the file header decoded */
+    int has_footer;         /* a valid footer and trailer were found */
+    uint64_t file_bytes;    /* size of the file */
+    uint64_t blocks;        /* blocks read and verified */
+    uint64_t records;       /* records in those blocks */
+    uint64_t raw_bytes;     /* records x 48: the v1.0 record bytes read */
+} mc_trace_check;
+
+/*! mc_trace_verify() :
+ *  Check one trace completely: file header, every block header, sequence
+ *  numbers, payload checksum, zstd frame, every record (mc_record_check),
+ *  and, when a footer is present, that it agrees with a walk of the block
+ *  headers (same offsets, record counts and lengths, same total). The walk
+ *  is done even when the footer is valid, so a footer that hides damage is
+ *  found too. Stops at the first problem.
+ *  @out (may be NULL) receives what was read before the problem.
+ *  @return 0 when the file is intact, else the first error's code, with
+ *  file, block index, offset and reason in @err. */
+MC_API int mc_trace_verify(const char *path, mc_trace_check *out,
+                           mc_errinfo *err);
 
 #endif /* MSGCENSUS_TRACE_H */
