@@ -40,12 +40,14 @@ MC_API int mc_hist_add(mc_hist *h, uint64_t size, uint64_t n);
 MC_API int mc_hist_add_sizes(mc_hist *h, const uint64_t *sizes, size_t n,
                              size_t *done);
 
-/*! mc_hist_merge() : add every entry of @src to @dst. @return as add. */
+/*! mc_hist_merge() : add every entry of @src to @dst (@dst == @src doubles
+ *  every count). @return as add; on failure @dst is unchanged. */
 MC_API int mc_hist_merge(mc_hist *dst, const mc_hist *src);
 
 /*! mc_hist_add_sorted() : add a sorted (size, count) array, e.g. received
- *  over MPI or read from HDF5. Sizes must ascend strictly.
- *  @return 0, MC_EINVAL if not sorted, or as add. */
+ *  over MPI or read from HDF5. Sizes must ascend strictly; entries with
+ *  count 0 are skipped. @return 0, MC_EINVAL if not sorted, or as add; on
+ *  failure @h is unchanged. */
 MC_API int mc_hist_add_sorted(mc_hist *h, const uint64_t *sizes,
                               const uint64_t *counts, size_t k);
 
@@ -59,9 +61,9 @@ MC_API uint64_t mc_hist_total(const mc_hist *h);
 MC_API size_t mc_hist_memory(const mc_hist *h);
 
 /*! mc_hist_export() : write the K entries sorted by size into @sizes and
- *  @counts (each with room for mc_hist_distinct() values). */
-MC_API void mc_hist_export(const mc_hist *h, uint64_t *sizes,
-                           uint64_t *counts);
+ *  @counts (each with room for mc_hist_distinct() values). Cannot fail:
+ *  without scratch memory it sorts in place, more slowly. */
+MC_API void mc_hist_export(const mc_hist *h, uint64_t *sizes, uint64_t *counts);
 
 /*! mc_hist_sorted() : a sorted view owned by the histogram, valid until the
  *  next change or free. @return 0 or MC_ENOMEM. */
