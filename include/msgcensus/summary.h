@@ -18,14 +18,14 @@
 /* Run metadata: root attributes of the file. Strings are owned by the
  * summary (heap, NUL-terminated, "" when absent). */
 typedef struct mc_summary_meta {
-    char *format_name;     /* MC_SUMMARY_FORMAT_NAME */
+    char *format_name; /* MC_SUMMARY_FORMAT_NAME */
     int version_major, version_minor;
     char *tool_version;
-    char *created;         /* ISO 8601 UTC */
+    char *created; /* ISO 8601 UTC */
     char *campaign_path;
-    char *run_label;       /* e.g. the input deck's name */
-    char *host;            /* host of the reducer's rank 0 */
-    int64_t app_ranks;     /* application world size */
+    char *run_label;   /* e.g. the input deck's name */
+    char *host;        /* host of the reducer's rank 0 */
+    int64_t app_ranks; /* application world size */
     int64_t reducer_ranks;
     int64_t files;
     uint64_t records_read;
@@ -34,30 +34,35 @@ typedef struct mc_summary_meta {
     double elapsed_s;
     /* Set by `share`: what was removed or coarsened ("" when none). */
     char *shared_note;
-    int approximate;       /* 1 when histograms were coarsened */
+    int approximate; /* 1 when histograms were coarsened */
 } mc_summary_meta;
 
 /* One source trace file. */
 typedef struct mc_summary_source {
-    char *path;            /* relative to the campaign directory */
+    char *path; /* relative to the campaign directory */
     int32_t app_rank;
-    uint64_t bytes;        /* file size */
-    uint64_t records;      /* records counted */
+    uint64_t bytes;   /* file size */
+    uint64_t records; /* records counted */
     uint64_t blocks;
     uint64_t skipped_blocks;
     uint64_t skipped_records;
-    uint64_t checksum;     /* xxHash64 of the whole file */
-    char *status;          /* "ok", "skipped: ..." */
+    uint64_t checksum; /* XXH64 (seed 0) of the sequence of the raw
+                          payload checksums of the blocks read, each as
+                          8 little-endian bytes, in block order; a split
+                          file can be checked this way, see
+                          docs/summary-format.md */
+    char *status;      /* "ok", "skipped: ..." */
 } mc_summary_source;
 
 /* One population (e.g. "all", "p2p", "op/MPI_Isend"). */
 typedef struct mc_summary_pop {
     char *name;
-    mc_hview hist;          /* sizes and counts, owned by the summary */
-    mc_stats stats;         /* recomputed from hist on read */
-    mc_fitness fitness;     /* recomputed from hist on read */
+    mc_hview hist;      /* sizes and counts, owned by the summary */
+    mc_stats stats;     /* as stored in the file (computed by reduce
+                           from hist) */
+    mc_fitness fitness; /* as stored in the file */
     size_t ntop;
-    mc_topsize *top;        /* top sizes */
+    mc_topsize *top; /* top sizes */
     size_t npeaks;
     mc_peak *peaks;
     mc_gmm gmm;
@@ -85,9 +90,9 @@ typedef struct mc_summary {
     size_t npops;
     mc_summary_pop *pops;
     size_t nranks;
-    mc_summary_rank *ranks;  /* sorted by rank */
+    mc_summary_rank *ranks; /* sorted by rank */
     size_t nedges;
-    mc_summary_edge *edges;  /* sorted by (src, dst) */
+    mc_summary_edge *edges; /* sorted by (src, dst) */
 } mc_summary;
 
 /*! mc_summary_read() : read @path into a new summary. Statistics, fitness,

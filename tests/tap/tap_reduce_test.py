@@ -21,9 +21,11 @@ import tap_expect  # noqa: E402
 import tap_scenario_test as sc  # noqa: E402
 
 TAP, TRAFFIC, LINKED, DUMP = sys.argv[1:5]
-# Scenarios without per-peer collective records (see the report on
-# MC_RF_PER_PEER and the reducer in docs/byte-conventions.md).
-SCENARIOS = ["ring", "p2pmore", "halo", "sendrecv", "persist", "rma", "comms", "errors"]
+# Every scenario, including collectives with per-peer records
+# (MC_RF_PER_PEER): those enter no population, total or matrix, since the
+# call's own record counts the same bytes (docs/byte-conventions.md).
+SCENARIOS = ["ring", "p2pmore", "halo", "sendrecv", "coll", "persist", "rma", "neighbor",
+             "comms", "errors"]
 NP = 4
 
 
@@ -59,6 +61,8 @@ def main():
         groups = collections.defaultdict(list)
         for w, recs in want.items():
             for op, d, peer, nbytes, comm, size, tag, flags in recs:
+                if flags & tap_expect.PER_PEER:
+                    continue
                 cat = tap_expect.category(op)
                 if cat == "p2p":
                     groups["p2p_recv" if d == tap_expect.RECV else "p2p"].append(nbytes)
@@ -81,7 +85,9 @@ def main():
                    zip(m["src"][()], m["dst"][()], m["msgs"][()], m["bytes"][()])}
             exp = collections.defaultdict(lambda: [0, 0])
             for w, recs in want.items():
-                for op, d, peer, nbytes, *_ in recs:
+                for op, d, peer, nbytes, comm, size, tag, flags in recs:
+                    if flags & tap_expect.PER_PEER:
+                        continue
                     if tap_expect.category(op) == "p2p" and d == tap_expect.SEND and peer >= 0:
                         exp[(w, peer)][0] += 1
                         exp[(w, peer)][1] += nbytes
@@ -92,7 +98,9 @@ def main():
             assert sorted(ranks) == list(range(NP))
             for w, recs in want.items():
                 tot = collections.Counter()
-                for op, d, peer, nbytes, *_ in recs:
+                for op, d, peer, nbytes, comm, size, tag, flags in recs:
+                    if flags & tap_expect.PER_PEER:
+                        continue
                     cat = tap_expect.category(op)
                     key = {"p2p": "recv" if d == tap_expect.RECV else "p2p",
                            "coll": "coll", "onesided": "os"}[cat]

@@ -1,0 +1,175 @@
+#!/bin/bash
+# run_reduce.sh - throughput and memory of 'msgcensus reduce' against cat,
+# zstd -dc and a NumPy reference, with the campaign in the page cache.
+# Figures for docs/performance.md; never run by ctest.
+#
+# usage: bench/run_reduce.sh [--build DIR] [--work DIR] [--size 1GiB]
+#                            [--runs 5] [--big 8GiB] [--profile] [--keep]
+#   --big SIZE   also reduce a SIZE campaign (peak RSS must stay the same);
+#                run last, and deleted afterwards (the disk is shared)
+#   --profile    perf profile of one single-rank run (top symbols)
+#   --keep       keep the campaigns (default: delete them at the end)
+set -euo pipefail
+
+BUILD=$(cd "$(dirname "$0")/.." && pwd)/build
+WORK=/tmp/mc-bench-reduce
+SIZE=1GiB
+RUNS=5
+BIG=
+PROFILE=0
+KEEP=0
+while [ $# -gt 0 ]; do
+    case $1 in
+    --build) BUILD=$2; shift ;;
+    --work) WORK=$2; shift ;;
+    --size) SIZE=$2; shift ;;
+    --runs) RUNS=$2; shift ;;
+    --big) BIG=$2; shift ;;
+    --profile) PROFILE=1 ;;
+    --keep) KEEP=1 ;;
+    -h|--help) sed -n '2,12p' "$0"; exit 0 ;;
+    *) echo "run_reduce.sh: unknown option $1" >&2; exit 2 ;;
+    esac
+    shift
+done
+CLI=$BUILD/msgcensus
+PY=/usr/bin/python3
+export OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
+export OMPI_MCA_btl=self,vader OMPI_MCA_btl_vader_single_copy_mechanism=none
+MPIRUN="mpirun --oversubscribe"
+[ -x "$CLI" ] || { echo "run_reduce.sh: no $CLI (build first)" >&2; exit 1; }
+[ -x /usr/bin/time ] || { echo "run_reduce.sh: needs GNU time (Debian package 'time')" >&2; exit 1; }
+mkdir -p "$WORK"
+cleanup() { [ "$KEEP" = 1 ] || rm -rf "$WORK/unc" "$WORK/zst" "$WORK/big" "$WORK/all.zst" "$WORK"/*.h5 "$WORK/np_ref.py" "$WORK"/perf.data* "$WORK"/rss.*; }
+trap cleanup EXIT
+
+now() { date +%s.%N; }
+median() { sort -g | awk '{ v[NR] = $1 } END { if (NR % 2) print v[(NR + 1) / 2]; else print (v[NR / 2] + v[NR / 2 + 1]) / 2 }'; }
+# time_cmd CMD...: wall seconds of one run
+time_cmd() { local t0 t1; t0=$(now); "$@" >/dev/null 2>&1; t1=$(now); echo "$t1 - $t0" | bc -l; }
+# reduce_secs NP DIR: the reducer's own elapsed time (plan to rename, no
+# MPI start-up), parsed from its result line.
+reduce_secs() {
+    local np=$1 dir=$2 out=$WORK/r.h5 line
+    rm -f "$out"
+    if [ "$np" = 0 ]; then line=$("$CLI" reduce "$dir" -o "$out" 2>&1 >/dev/null | tail -1)
+    else line=$($MPIRUN -np "$np" "$CLI" reduce "$dir" -o "$out" 2>&1 >/dev/null | grep '^reduce:' | tail -1); fi
+    echo "$line" | sed -n 's/.* in \([0-9.]*\) s .*/\1/p'
+}
+rate() { echo "$1 / $2 / 1048576" | bc -l | xargs printf '%.0f'; } # MiB/s
+runs() { local i; for i in $(seq "$RUNS"); do "$@"; done; }
+
+echo "# run_reduce.sh on $(hostname), $(nproc) cores, $(date -u +%FT%TZ)"
+echo "# load average at start: $(cut -d' ' -f1-3 /proc/loadavg)"
+
+# ---- campaigns ----------------------------------------------------------
+rm -rf "$WORK/unc" "$WORK/zst"
+"$CLI" synth -q -o "$WORK/unc" --ranks 8 --target-size "$SIZE"
+"$CLI" synth -q -o "$WORK/zst" --ranks 8 --target-size "$SIZE" --zstd
+BYTES=$(cat "$WORK"/unc/*.mct | wc -c)
+ZBYTES=$(cat "$WORK"/zst/*.mct | wc -c)
+RECORDS=$(sed -n 's/^records = //p' "$WORK/unc/campaign.txt")
+echo "# campaign: 8 files, $RECORDS records, $BYTES bytes uncompressed, $ZBYTES with zstd"
+cat "$WORK"/unc/*.mct "$WORK"/zst/*.mct >/dev/null # into the page cache
+
+# ---- uncompressed: cat vs 1 and 2 reducer ranks -------------------------
+T_CAT=$(runs time_cmd sh -c "cat $WORK/unc/*.mct > /dev/null" | median)
+T_R1=$(runs reduce_secs 0 "$WORK/unc" | median)
+T_R2=$(runs reduce_secs 2 "$WORK/unc" | median)
+W_R1=$(runs time_cmd sh -c "rm -f $WORK/w.h5; $CLI reduce -q $WORK/unc -o $WORK/w.h5" | median)
+W_R2=$(runs time_cmd sh -c "rm -f $WORK/w.h5; $MPIRUN -np 2 $CLI reduce -q $WORK/unc -o $WORK/w.h5" | median)
+echo
+echo "uncompressed ($RUNS runs, medians; reducer time excludes MPI start-up, wall time includes it)"
+printf '  %-28s %8.3f s %7s MiB/s\n' "cat > /dev/null" "$T_CAT" "$(rate "$BYTES" "$T_CAT")"
+printf '  %-28s %8.3f s %7s MiB/s  (%.0f %% of cat)   wall %.3f s\n' "reduce, 1 rank" "$T_R1" \
+    "$(rate "$BYTES" "$T_R1")" "$(echo "100 * $T_CAT / $T_R1" | bc -l)" "$W_R1"
+printf '  %-28s %8.3f s %7s MiB/s  (%.2fx one rank)    wall %.3f s\n' "reduce, 2 ranks" "$T_R2" \
+    "$(rate "$BYTES" "$T_R2")" "$(echo "$T_R1 / $T_R2" | bc -l)" "$W_R2"
+
+# ---- zstd: reduce vs zstd -dc of the same records -----------------------
+cat "$WORK"/unc/*.mct | zstd -q -3 -T1 -c >"$WORK/all.zst"
+T_ZCAT=$(runs time_cmd sh -c "zstd -q -dc -T1 $WORK/all.zst > /dev/null" | median)
+T_Z1=$(runs reduce_secs 0 "$WORK/zst" | median)
+T_Z2=$(runs reduce_secs 2 "$WORK/zst" | median)
+echo
+echo "zstd blocks (rates in uncompressed bytes/s)"
+printf '  %-28s %8.3f s %7s MiB/s\n' "zstd -dc (one stream, -3)" "$T_ZCAT" "$(rate "$BYTES" "$T_ZCAT")"
+printf '  %-28s %8.3f s %7s MiB/s  (%.0f %% of zstd -dc)\n' "reduce, 1 rank" "$T_Z1" \
+    "$(rate "$BYTES" "$T_Z1")" "$(echo "100 * $T_ZCAT / $T_Z1" | bc -l)"
+printf '  %-28s %8.3f s %7s MiB/s  (%.2fx one rank)\n' "reduce, 2 ranks" "$T_Z2" \
+    "$(rate "$BYTES" "$T_Z2")" "$(echo "$T_Z1 / $T_Z2" | bc -l)"
+
+# ---- histogram update: batched vs per record ------------------------------
+if [ -x "$BUILD/bench/bench_reduce_hist" ]; then
+    echo
+    echo "histogram update ($(ls "$WORK"/unc/*.mct | head -1 | xargs basename))"
+    echo "  $("$BUILD/bench/bench_reduce_hist" "$(ls "$WORK"/unc/*.mct | head -1)")"
+fi
+
+# ---- peak RSS per rank ----------------------------------------------------
+rss_ranks() { # NP DIR: max RSS (KiB) of each rank, one GNU time file per rank
+    rm -f "$WORK/m.h5" "$WORK"/rss.*
+    $MPIRUN -np "$1" sh -c 'exec /usr/bin/time -f %M -o "$0.$OMPI_COMM_WORLD_RANK" "$@"' \
+        "$WORK/rss" "$CLI" reduce -q "$2" -o "$WORK/m.h5" >/dev/null 2>&1 || true
+    cat "$WORK"/rss.* | tr '\n' ' '
+    rm -f "$WORK"/rss.*
+}
+echo
+echo "peak RSS per rank (GNU time, KiB)"
+echo "  $SIZE campaign, 1 rank:  $(rss_ranks 1 "$WORK/unc")"
+echo "  $SIZE campaign, 2 ranks: $(rss_ranks 2 "$WORK/unc")"
+
+# ---- NumPy reference --------------------------------------------------------
+cat >"$WORK/np_ref.py" <<'EOF'
+import glob, sys, time
+import numpy as np  # Debian python3-numpy
+REC = np.dtype([("bytes", "<u8"), ("t0", "<u8"), ("t1", "<u8"), ("comm", "<u4"),
+                ("csize", "<u4"), ("peer", "<i4"), ("tag", "<i4"), ("op", "<u2"),
+                ("dir", "u1"), ("flags", "u1"), ("res", "<u4")])
+t = time.time()
+parts = []
+for path in sorted(glob.glob(sys.argv[1] + "/*.mct")):
+    raw = np.fromfile(path, dtype=np.uint8)
+    off = int(raw[16:20].view("<u4")[0])
+    while off + 40 <= raw.size and raw[off:off + 4].tobytes() == b"MCBK":
+        n = int(raw[off + 8:off + 12].view("<u4")[0])
+        stored = int(raw[off + 16:off + 20].view("<u4")[0])
+        parts.append(raw[off + 40:off + 40 + 48 * n].view(REC))
+        off += 40 + stored
+recs = np.concatenate(parts)
+keys = recs["op"].astype(np.uint32) * 3 + recs["dir"]
+for k in np.unique(keys):
+    s, c = np.unique(recs["bytes"][keys == k], return_counts=True)
+    x = s.astype(np.float64)
+    mean = np.average(x, weights=c)
+    med = np.median(np.repeat(x, c)) if c.sum() < 5e7 else np.nan
+print("%d records in %.2f s" % (recs.size, time.time() - t))
+EOF
+echo
+NP_OUT=$(/usr/bin/time -f 'RSS %M' $PY "$WORK/np_ref.py" "$WORK/unc" 2>&1)
+echo "NumPy reference (np.fromfile + structured dtype + np.unique per op):"
+echo "  $(echo "$NP_OUT" | grep records), peak RSS $(echo "$NP_OUT" | sed -n 's/^RSS //p') KiB"
+
+# ---- profile ------------------------------------------------------------------
+if [ "$PROFILE" = 1 ] && command -v perf >/dev/null; then
+    rm -f "$WORK/p.h5"
+    perf record -q -o "$WORK/perf.data" "$CLI" reduce -q "$WORK/unc" -o "$WORK/p.h5" >/dev/null 2>&1
+    echo
+    echo "perf profile, 1 rank, uncompressed (top symbols):"
+    perf report -i "$WORK/perf.data" --no-children --stdio 2>/dev/null |
+        grep -E '^ +[0-9]' | grep msgcensus | head -8 | sed 's/^/  /' || true
+    rm -f "$WORK/perf.data"
+fi
+
+# ---- the big campaign, last ---------------------------------------------------
+if [ -n "$BIG" ]; then
+    rm -rf "$WORK/unc" "$WORK/zst" "$WORK/all.zst" # make room first
+    "$CLI" synth -q -o "$WORK/big" --ranks 8 --target-size "$BIG"
+    cat "$WORK"/big/*.mct >/dev/null
+    echo
+    echo "  $BIG campaign, 1 rank:  $(rss_ranks 1 "$WORK/big") KiB; $(reduce_secs 0 "$WORK/big") s"
+    echo "  $BIG campaign, 2 ranks: $(rss_ranks 2 "$WORK/big") KiB; $(reduce_secs 2 "$WORK/big") s"
+    rm -rf "$WORK/big"
+fi
+echo
+echo "# load average at end: $(cut -d' ' -f1-3 /proc/loadavg)"

@@ -1,0 +1,105 @@
+#!/usr/bin/python3
+"""reduce_partition.py - the partition plan under 1..7 reducer ranks.
+
+  totals     every record is counted exactly once: for P = 1..7 on a very
+             uneven campaign the summary's record total and per-file counts
+             equal the counts read from the block headers with NumPy-free
+             byte parsing (docs/trace-format.md), and files are split.
+  identical  every dataset of the summary is bit-identical for P = 1, 2, 3,
+             4 and 7 (compared with h5py, Debian python3-h5py), on a zstd
+             campaign without footers (block-walk splitting) with
+             per-communicator populations.
+"""
+import os
+import sys
+import tempfile
+
+import h5py  # Debian python3-h5py
+import numpy as np  # Debian python3-numpy
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from reduce_common import (campaign_files, reduce_cmd, records_of_file, run,
+                           synth)
+
+
+def test_totals(tmp):
+    camp = os.path.join(tmp, "uneven")
+    synth(camp, "--ranks", "6", "--steps", "40", "--uneven",
+          "--block-records", "128")
+    files = campaign_files(camp)
+    # Independent count: the nrecords fields of the block headers.
+    expect = {f: records_of_file(os.path.join(camp, f)) for f in files}
+    total = sum(expect.values())
+    sizes = [os.path.getsize(os.path.join(camp, f)) for f in files]
+    assert max(sizes) > 4 * min(sizes), "campaign is not uneven: %s" % sizes
+    for p in range(1, 8):
+        out = os.path.join(tmp, "t%d.h5" % p)
+        r = run(reduce_cmd(p, camp, "-o", out, "--verbose", "--quiet"))
+        with h5py.File(out, "r") as h:
+            got = int(h.attrs["records_read"])
+            assert got == total, "P=%d: %d records, expected %d" % (p, got, total)
+            assert int(h.attrs["records_rejected"]) == 0
+            src = h["sources"][...]
+            for row in src:
+                name = row["path"].decode() if isinstance(row["path"], bytes) \
+                    else row["path"]
+                assert int(row["records"]) == expect[name], (p, name)
+            hist_total = int(h["populations/all/hist_counts"][...].sum()) + \
+                int(h["populations/p2p_recv/hist_counts"][...].sum())
+            assert hist_total == total, (p, hist_total, total)
+        print("P=%d: %d records" % (p, got))
+    # With 7 ranks on 6 uneven files the largest files must be split.
+    r = run(reduce_cmd(7, camp, "-o", os.path.join(tmp, "v.h5"), "--verbose"))
+    line = [l for l in r.stderr.splitlines() if "files split" in l]
+    assert line, r.stderr
+    nsplit = int(line[0].split(" units, ")[1].split()[0])
+    assert nsplit >= 1, line[0]
+
+
+def datasets(path):
+    out = {}
+
+    def visit(name, obj):
+        if isinstance(obj, h5py.Dataset):
+            out[name] = obj[...]
+    with h5py.File(path, "r") as h:
+        h.visititems(visit)
+    return out
+
+
+def test_identical(tmp):
+    camp = os.path.join(tmp, "zc")
+    synth(camp, "--ranks", "5", "--steps", "30", "--uneven", "--zstd",
+          "--no-footer", "--block-records", "100")
+    ref = None
+    for p in (1, 2, 3, 4, 7):
+        out = os.path.join(tmp, "i%d.h5" % p)
+        run(reduce_cmd(p, camp, "-o", out, "--per-comm"))
+        d = datasets(out)
+        if ref is None:
+            ref = d
+            assert any(k.startswith("populations/comm:") for k in d), d.keys()
+            continue
+        assert sorted(d) == sorted(ref), (p, sorted(set(d) ^ set(ref)))
+        for k in ref:
+            a, b = ref[k], d[k]
+            assert a.dtype == b.dtype and a.shape == b.shape, (p, k)
+            # Bit-identical: compare the raw bytes (NaN-safe), and for
+            # variable-length strings the decoded values.
+            if a.dtype.hasobject or (a.dtype.names and any(
+                    a.dtype[n].hasobject for n in a.dtype.names)):
+                assert a.tolist() == b.tolist(), (p, k)
+            else:
+                assert a.tobytes() == b.tobytes(), (p, k)
+        print("P=%d: %d datasets identical to P=1" % (p, len(d)))
+
+
+def main():
+    mode = sys.argv[1]
+    with tempfile.TemporaryDirectory() as tmp:
+        {"totals": test_totals, "identical": test_identical}[mode](tmp)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
