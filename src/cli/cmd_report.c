@@ -8,6 +8,9 @@
 
 #include <msgcensus/summary.h>
 
+#include "outfile.h" /* mc_outfile_*: no overwrite without --force */
+#include "study.h"   /* mc_study_html_write */
+
 static void usage(FILE *out)
 {
     fprintf(
@@ -21,6 +24,10 @@ static void usage(FILE *out)
         "  --format F         text (default; fits 80 columns), csv or json\n"
         "  --population NAME  only this population (e.g. all, p2p, "
         "op/MPI_Isend)\n"
+        "  --html FILE        write one self-contained HTML page (tables and "
+        "figures)\n"
+        "                     to FILE instead of printing\n"
+        "  --force            replace an existing --html FILE\n"
         "  -h, --help         this help\n\n"
         "CSV has one value per row: population,section,item,field,value.\n");
 }
@@ -385,11 +392,43 @@ static void json_head(const mc_summary *s)
 
 enum { FMT_TEXT, FMT_CSV, FMT_JSON };
 
+/* The HTML page: written to a temporary name beside FILE and moved into
+ * place, so a reader never sees half a page. */
+static int write_html(const mc_summary *s, const char *html, int force)
+{
+    mc_outfile o;
+    mc_errinfo err;
+    mc_errinfo_clear(&err);
+    int rc = mc_outfile_begin(&o, html, force, &err);
+    if (rc) {
+        mc_cli_error(&err, rc, html);
+        return MC_EXIT_FAIL;
+    }
+    FILE *f = fopen(o.tmp, "w");
+    if (!f) {
+        mc_cli_error(NULL, MC_EOPEN, html);
+        return MC_EXIT_FAIL;
+    }
+    rc = mc_study_html_write(f, s);
+    if (fclose(f) != 0 && rc == 0)
+        rc = MC_EIO;
+    if (rc == 0)
+        rc = mc_outfile_commit(&o, &err);
+    else
+        mc_outfile_discard(&o);
+    if (rc) {
+        mc_cli_error(&err, rc, html);
+        return MC_EXIT_FAIL;
+    }
+    MC_SAY(1, "report: wrote %s\n", html);
+    return MC_EXIT_OK;
+}
+
 int mc_cmd_report(int argc, char **argv)
 {
     const char *cmd = argv[0];
-    const char *path = NULL, *only = NULL;
-    int fmt = FMT_TEXT;
+    const char *path = NULL, *only = NULL, *html = NULL;
+    int fmt = FMT_TEXT, force = 0;
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
         if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
@@ -411,6 +450,12 @@ int mc_cmd_report(int argc, char **argv)
             if (++i == argc)
                 return mc_cli_usage_error(cmd, "--population needs a name");
             only = argv[i];
+        } else if (!strcmp(a, "--html")) {
+            if (++i == argc)
+                return mc_cli_usage_error(cmd, "--html needs a file name");
+            html = argv[i];
+        } else if (!strcmp(a, "--force")) {
+            force = 1;
         } else if (a[0] == '-' && a[1] != '\0') {
             return mc_cli_usage_error(cmd, "unknown option '%s'", a);
         } else if (!path) {
@@ -437,6 +482,11 @@ int mc_cmd_report(int argc, char **argv)
         fprintf(stderr, "\n");
         mc_summary_free(s);
         return MC_EXIT_FAIL;
+    }
+    if (html) {
+        const int st = write_html(s, html, force);
+        mc_summary_free(s);
+        return st;
     }
     if (fmt == FMT_TEXT)
         text_head(path, s);

@@ -16,7 +16,6 @@ import tempfile
 
 CLI = os.environ["MC_CLI"]
 MPIRUN = shlex.split(os.environ.get("MC_MPIRUN", "mpirun --oversubscribe"))
-DRIVER = sys.argv[1]
 WORK = os.path.abspath("study_html")
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium"
                                          if os.path.exists("/usr/bin/chromium") else None)
@@ -89,7 +88,7 @@ def main():
     want_figures = 1 + 2 * nonempty + (2 if has_matrix else 0)
 
     page = os.path.join(WORK, "report.html")
-    run([DRIVER, summary, page])
+    run([CLI, "report", summary, "--html", page, "--force"])
     text = open(page, encoding="utf-8").read()
     scan = Scan()
     scan.feed(text)
@@ -134,7 +133,7 @@ def main():
 
     # 4. The page of a shared copy says it is approximate.
     page2 = os.path.join(WORK, "shared.html")
-    run([DRIVER, shared, page2])
+    run([CLI, "report", shared, "--html", page2, "--force"])
     text2 = open(page2, encoding="utf-8").read()
     assert "Approximate: this is a coarsened copy" in text2
     p = chromium("file://" + page2, "--dump-dom")
