@@ -83,8 +83,15 @@ typedef struct mc_summary_edge {
     uint64_t msgs, bytes;
 } mc_summary_edge;
 
+/* Tables a summary may leave out (mc_summary.omitted): a shareable copy
+ * drops them. A reader sets the bit for each table absent from the file. */
+#define MC_OMIT_SOURCES 0x1u
+#define MC_OMIT_RANKS 0x2u
+#define MC_OMIT_MATRIX 0x4u
+
 typedef struct mc_summary {
     mc_summary_meta meta;
+    unsigned omitted; /* MC_OMIT_* bits; 0 for a full summary */
     size_t nsources;
     mc_summary_source *sources;
     size_t npops;

@@ -544,10 +544,21 @@ int mc_summary_read(const char *path, mc_summary **out, mc_errinfo *err)
         goto out;
     }
     rc = read_meta(&r, f, &s->meta);
-    rc = rc ? rc : read_sources(&r, f, s);
+    /* Shareable copies may leave out the sources, per-rank and matrix
+     * tables; their absence is recorded, not an error. */
+    if (!rc && H5Lexists(f, "sources", H5P_DEFAULT) <= 0)
+        s->omitted |= MC_OMIT_SOURCES;
+    else
+        rc = rc ? rc : read_sources(&r, f, s);
     rc = rc ? rc : read_pops(&r, f, s);
-    rc = rc ? rc : read_ranks(&r, f, s);
-    rc = rc ? rc : read_matrix(&r, f, s);
+    if (!rc && H5Lexists(f, "ranks", H5P_DEFAULT) <= 0)
+        s->omitted |= MC_OMIT_RANKS;
+    else
+        rc = rc ? rc : read_ranks(&r, f, s);
+    if (!rc && H5Lexists(f, "matrix", H5P_DEFAULT) <= 0)
+        s->omitted |= MC_OMIT_MATRIX;
+    else
+        rc = rc ? rc : read_matrix(&r, f, s);
 out:
     if (f >= 0)
         H5Fclose(f);

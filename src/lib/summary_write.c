@@ -427,7 +427,8 @@ int mc_summary_write(const char *path, const mc_summary *s, mc_errinfo *err)
         goto out;
     }
     rc = write_meta(&w, f, &s->meta);
-    rc = rc ? rc : write_sources(&w, f, s);
+    if (!(s->omitted & MC_OMIT_SOURCES))
+        rc = rc ? rc : write_sources(&w, f, s);
     if (!rc) {
         pops = group_create(&w, f, "populations", 1);
         if (pops < 0)
@@ -435,8 +436,10 @@ int mc_summary_write(const char *path, const mc_summary *s, mc_errinfo *err)
     }
     for (size_t i = 0; !rc && i < s->npops; i++)
         rc = write_pop(&w, pops, &s->pops[i]);
-    rc = rc ? rc : write_ranks(&w, f, s);
-    rc = rc ? rc : write_matrix(&w, f, s);
+    if (!(s->omitted & MC_OMIT_RANKS))
+        rc = rc ? rc : write_ranks(&w, f, s);
+    if (!(s->omitted & MC_OMIT_MATRIX))
+        rc = rc ? rc : write_matrix(&w, f, s);
 out:
     if (pops >= 0)
         H5Gclose(pops);

@@ -210,6 +210,14 @@ int mc_study_share(const mc_summary *in, const mc_share_opts *o,
         }
     }
 
+    /* Dropped tables are left out of the file, not written empty. */
+    if (!o->keep_sources)
+        s->omitted |= MC_OMIT_SOURCES;
+    if (!o->keep_ranks)
+        s->omitted |= MC_OMIT_RANKS;
+    if (!o->keep_matrix)
+        s->omitted |= MC_OMIT_MATRIX;
+
     /* The note: what was removed, how histograms were coarsened. */
     if (rc == 0) {
         mc_sbuf b;
