@@ -113,6 +113,27 @@ MC_API int mc_summary_read(const char *path, mc_summary **out, mc_errinfo *err);
 MC_API int mc_summary_write(const char *path, const mc_summary *s,
                             mc_errinfo *err);
 
+/* Settings of the standard population analysis (docs/summary-format.md). */
+#define MC_SUMMARY_TOP_SIZES 10
+#define MC_SUMMARY_PEAK_BINS_PER_OCTAVE 4
+#define MC_SUMMARY_PEAK_MIN_PROMINENCE 0.01
+#define MC_SUMMARY_PEAK_CAP 16
+#define MC_SUMMARY_GMM_MAX_COMP 6
+#define MC_SUMMARY_GMM_SEED 1
+
+/*! mc_summary_pop_analyse() :
+ *  Fill the statistics, fitness, top sizes, peaks and mixture of @p from its
+ *  histogram p->hist (which the caller has set), with the settings above.
+ *  The reducer and `share` both use it, so every summary is analysed alike.
+ *  An empty histogram gives zero statistics and no modes.
+ *  @return 0, MC_ENOMEM, MC_ERANGE (total bytes overflow) or MC_EINVAL. */
+MC_API int mc_summary_pop_analyse(mc_summary_pop *p);
+
+/*! mc_summary_pop_set_hist() : copy @v into p->hist (owned by @p, freed by
+ *  mc_summary_free) and run mc_summary_pop_analyse().
+ *  @return as mc_summary_pop_analyse(), or MC_ENOMEM for the copy. */
+MC_API int mc_summary_pop_set_hist(mc_summary_pop *p, const mc_hview *v);
+
 /*! mc_summary_find_pop() : the population called @name, or NULL. */
 MC_API const mc_summary_pop *mc_summary_find_pop(const mc_summary *s,
                                                  const char *name);

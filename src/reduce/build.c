@@ -12,14 +12,6 @@
 #include <msgcensus/modes.h>
 #include <msgcensus/stats.h>
 
-/* Analysis settings of every population (docs/summary-format.md). */
-#define TOP_SIZES 10
-#define PEAK_BINS_PER_OCTAVE 4
-#define PEAK_MIN_PROMINENCE 0.01
-#define PEAK_CAP 16
-#define GMM_MAX_COMP 6
-#define GMM_SEED 1
-
 /* Population classes of one (op, dir) key. */
 enum { IN_ALL = 1, IN_P2P = 2, IN_P2P_RECV = 4, IN_COLL = 8, IN_ONESIDED = 16 };
 
@@ -60,46 +52,7 @@ static int fill_pop(mc_summary_pop *p, const char *name, mc_hist *h)
     int rc = mc_hist_sorted(h, &v);
     if (rc)
         return rc;
-    uint64_t *sizes = malloc((v.k ? v.k : 1) * sizeof *sizes);
-    uint64_t *counts = malloc((v.k ? v.k : 1) * sizeof *counts);
-    if (!sizes || !counts) {
-        free(sizes);
-        free(counts);
-        return MC_ENOMEM;
-    }
-    if (v.k) {
-        memcpy(sizes, v.sizes, v.k * sizeof *sizes);
-        memcpy(counts, v.counts, v.k * sizeof *counts);
-    }
-    p->hist.sizes = sizes;
-    p->hist.counts = counts;
-    p->hist.k = v.k;
-    const mc_hview own = p->hist;
-    rc = mc_stats_compute(&own, &p->stats);
-    if (rc == MC_ENODATA)
-        return 0; /* empty population: zero statistics, no modes */
-    if (rc)
-        return rc;
-    rc = mc_fitness_compute(&own, &p->stats, &p->fitness);
-    if (rc)
-        return rc;
-    p->top = calloc(TOP_SIZES, sizeof *p->top);
-    p->peaks = calloc(PEAK_CAP, sizeof *p->peaks);
-    if (!p->top || !p->peaks)
-        return MC_ENOMEM;
-    p->ntop = mc_topk(&own, TOP_SIZES, p->top);
-    const int np = mc_peaks(&own, PEAK_BINS_PER_OCTAVE, PEAK_MIN_PROMINENCE,
-                            p->peaks, PEAK_CAP);
-    if (np < 0)
-        return np;
-    p->npeaks = (size_t)np;
-    rc = mc_gmm_fit(&own, GMM_MAX_COMP, GMM_SEED, &p->gmm);
-    if (rc == MC_ENODATA) {
-        memset(&p->gmm, 0, sizeof p->gmm);
-        p->gmm.excluded_zero = p->stats.zero_count;
-        rc = 0;
-    }
-    return rc;
+    return mc_summary_pop_set_hist(p, &v);
 }
 
 static int cmp_u32(const void *a, const void *b)

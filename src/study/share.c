@@ -11,15 +11,6 @@
 #include <msgcensus/modes.h>   /* mc_topk, mc_peaks, mc_gmm_fit */
 #include <msgcensus/stats.h>   /* mc_stats_compute, mc_fitness_compute */
 
-/* The analysis settings the reducer uses (docs/summary-format.md), so a
- * shared copy carries the same kind of tables. */
-#define TOP_SIZES 10
-#define PEAK_BINS_PER_OCTAVE 4
-#define PEAK_MIN_PROMINENCE 0.01
-#define PEAK_CAP 16
-#define GMM_MAX_COMP 6
-#define GMM_SEED 1
-
 void mc_share_opts_init(mc_share_opts *o)
 {
     memset(o, 0, sizeof *o);
@@ -51,48 +42,11 @@ static int share_pop(const mc_summary_pop *in, const mc_share_opts *o,
     mc_coarse_get_info(c, info);
     mc_hview v;
     mc_coarse_view(c, &v);
-    uint64_t *sizes = malloc((v.k ? v.k : 1) * sizeof *sizes);
-    uint64_t *counts = malloc((v.k ? v.k : 1) * sizeof *counts);
-    if (!sizes || !counts) {
-        free(sizes);
-        free(counts);
-        mc_coarse_free(c);
-        return MC_ENOMEM;
-    }
-    if (v.k) {
-        memcpy(sizes, v.sizes, v.k * sizeof *sizes);
-        memcpy(counts, v.counts, v.k * sizeof *counts);
-    }
+    /* Rounding can empty a population; it then gets zero statistics. */
+    *empty = v.k == 0 && in->hist.k > 0;
+    /* The reducer's analysis, so a shared copy carries the same tables. */
+    rc = mc_summary_pop_set_hist(p, &v);
     mc_coarse_free(c);
-    p->hist.sizes = sizes;
-    p->hist.counts = counts;
-    p->hist.k = v.k;
-    const mc_hview own = p->hist;
-    if (own.k == 0) {
-        *empty = in->hist.k > 0;
-        return 0; /* an empty population stays empty: zero statistics */
-    }
-    rc = mc_stats_compute(&own, &p->stats);
-    if (rc == 0)
-        rc = mc_fitness_compute(&own, &p->stats, &p->fitness);
-    if (rc != 0)
-        return rc;
-    p->top = calloc(TOP_SIZES, sizeof *p->top);
-    p->peaks = calloc(PEAK_CAP, sizeof *p->peaks);
-    if (!p->top || !p->peaks)
-        return MC_ENOMEM;
-    p->ntop = mc_topk(&own, TOP_SIZES, p->top);
-    const int np = mc_peaks(&own, PEAK_BINS_PER_OCTAVE, PEAK_MIN_PROMINENCE,
-                            p->peaks, PEAK_CAP);
-    if (np < 0)
-        return np;
-    p->npeaks = (size_t)np;
-    rc = mc_gmm_fit(&own, GMM_MAX_COMP, GMM_SEED, &p->gmm);
-    if (rc == MC_ENODATA) {
-        memset(&p->gmm, 0, sizeof p->gmm);
-        p->gmm.excluded_zero = p->stats.zero_count;
-        rc = 0;
-    }
     return rc;
 }
 
