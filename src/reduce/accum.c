@@ -2,6 +2,7 @@
  * histograms, per-rank totals, the send matrix and per-communicator
  * histograms, with memory bounded by the number of distinct keys. */
 #include "reduce_internal.h"
+#include "memlimit.h" /* --max-memory accounting */
 
 #include <fcntl.h>  /* open */
 #include <stdio.h>  /* snprintf */
@@ -306,7 +307,7 @@ static int reduce_block(unit_ctx *c, const mc_record *recs, size_t n,
             continue;
         }
         /* Per-peer records of a collective repeat, peer by peer, bytes the
-         * call's own record already counts (docs/byte-conventions.md): they
+         * call's own record already counts (docs/trace-format.md, byte conventions): they
          * are read and checked but enter no population, total or matrix. */
         if (r->flags & MC_RF_PER_PEER)
             continue;
@@ -372,6 +373,20 @@ static int reduce_block(unit_ctx *c, const mc_record *recs, size_t n,
     }
     memcpy(c->row.v, row, sizeof row);
     return rc;
+}
+
+/* --max-memory: what this rank holds with the unit being read, looked at
+ * every MC__MEM_CHECK_RECORDS records. */
+static int unit_memory_check(const mc__progress *p, const unit_ctx *c,
+                             const char *path, mc_errinfo *err)
+{
+    mc__memuse u = {0, 0, 0, 0, 0};
+    if (p->mem_base)
+        u = *p->mem_base;
+    mc__memuse_add_acc(&u, &c->ua);
+    u.bytes += (uint64_t)c->peers.cap * sizeof *c->peers.s;
+    u.edges += c->peers.n;
+    return mc__memuse_check(p->mem_limit, u.bytes, &u, "reading", path, err);
 }
 
 /* After a damaged block: find the next block through the index. @return 1
@@ -470,6 +485,11 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
         const uint64_t before = res->invalid;
         rc = reduce_block(c, recs, n, skip_damaged, &res->invalid, path, bidx,
                           boff, err);
+        if (!rc && prog->mem_limit &&
+            (prog->mem_unchecked += n) >= MC__MEM_CHECK_RECORDS) {
+            prog->mem_unchecked = 0;
+            rc = unit_memory_check(prog, c, path, err);
+        }
         if (rc)
             goto out;
         if (res->invalid != before && !res->damage_code) {

@@ -6,7 +6,7 @@
 #include <mpi-ext.h> /* MPIX_*_init persistent collectives of Open MPI 4.1 */
 #endif
 
-/* Byte conventions: docs/byte-conventions.md. Each collective call gives
+/* Byte conventions: docs/trace-format.md, byte conventions. Each collective call gives
  * one call record (dir NONE, peer NONE); MPI_Alltoallv/w also give one
  * MC_RF_PER_PEER send record per peer with a nonzero block. */
 

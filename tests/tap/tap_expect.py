@@ -6,7 +6,7 @@
 # is what MPI_Get_count reports for the arrived message (3.2.5), not the
 # posted count; a communication with MPI_PROC_NULL moves nothing (3.11).
 # The per-call conventions of collectives are the project's, stated in
-# docs/byte-conventions.md, and derived from the argument semantics of each
+# docs/trace-format.md, byte conventions, and derived from the argument semantics of each
 # collective (chapter 6). Record directions: 0 none, 1 send, 2 receive.
 # Flags: 2 = MC_RF_IN_PLACE, 4 = MC_RF_PER_PEER.
 

@@ -23,7 +23,7 @@ import tap_scenario_test as sc  # noqa: E402
 TAP, TRAFFIC, LINKED, DUMP = sys.argv[1:5]
 # Every scenario, including collectives with per-peer records
 # (MC_RF_PER_PEER): those enter no population, total or matrix, since the
-# call's own record counts the same bytes (docs/byte-conventions.md).
+# call's own record counts the same bytes (docs/trace-format.md, byte conventions).
 SCENARIOS = ["ring", "p2pmore", "halo", "sendrecv", "coll", "persist", "rma", "neighbor",
              "comms", "errors"]
 NP = 4
