@@ -16,3 +16,6 @@ echo "== build with AddressSanitizer + UndefinedBehaviorSanitizer"
 "$src/scripts/build.sh" "$src/build-asan" -DMC_WERROR=ON -DMC_SANITIZE=ON -DMC_BUILD_BENCH=OFF
 echo "== tests under sanitizers"
 ctest --test-dir "$src/build-asan" --output-on-failure -j"$jobs" --timeout 1800 -LE nosan
+
+echo "== fuzzing the trace reader, the decoders and the CSV importer (60 s, ASan/UBSan)"
+MC_FUZZ_BUILD="$src/build-fuzz" "$src/tests/fuzz/run.sh" 60
