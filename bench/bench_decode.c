@@ -1,4 +1,5 @@
-/* bench_decode.c - decode throughput of the trace reader (uncompressed and zstd) against a plain read() loop over the same file. */
+/* bench_decode.c - decode throughput of the trace reader (uncompressed and
+ * zstd) against a plain read() loop over the same file. */
 #include <fcntl.h>  /* open */
 #include <stdint.h> /* uint64_t */
 #include <stdio.h>  /* printf */
@@ -130,13 +131,15 @@ int main(int argc, char **argv)
     char p_none[512], p_zstd[512];
     snprintf(p_none, sizeof p_none, "%s/bench-decode-none.mct", dir);
     snprintf(p_zstd, sizeof p_zstd, "%s/bench-decode-zstd.mct", dir);
-    if (write_file(p_none, n, MC_CODEC_NONE) || write_file(p_zstd, n, MC_CODEC_ZSTD)) {
-        fprintf(stderr, "bench_decode: cannot write the test files in %s\n", dir);
+    if (write_file(p_none, n, MC_CODEC_NONE) ||
+        write_file(p_zstd, n, MC_CODEC_ZSTD)) {
+        fprintf(stderr, "bench_decode: cannot write the test files in %s\n",
+                dir);
         return 1;
     }
     printf("bench_decode: %llu records (%.1f MiB raw), best of %d runs, files "
-           "in the page cache\n", (unsigned long long)n,
-           (double)n * MC_RECORD_SIZE / 1048576.0, reps);
+           "in the page cache\n",
+           (unsigned long long)n, (double)n * MC_RECORD_SIZE / 1048576.0, reps);
     printf("%-28s %10s %12s %12s %10s\n", "case", "file MiB", "Mrecords/s",
            "raw GB/s", "file GB/s");
     const char *paths[2] = {p_none, p_zstd};
@@ -150,14 +153,16 @@ int main(int argc, char **argv)
             const double b = time_decode(paths[f], &nrec, &sum, 0);
             const double c = time_decode(paths[f], &nrec, &sum, 1);
             if (b < 0 || c < 0) {
-                fprintf(stderr, "bench_decode: decode of %s failed\n", paths[f]);
+                fprintf(stderr, "bench_decode: decode of %s failed\n",
+                        paths[f]);
                 return 1;
             }
             best_read = a < best_read ? a : best_read;
             best_dec = b < best_dec ? b : best_dec;
             best_chk = c < best_chk ? c : best_chk;
         }
-        const double raw = (double)nrec * MC_RECORD_SIZE, mib = (double)fbytes / 1048576.0;
+        const double raw = (double)nrec * MC_RECORD_SIZE,
+                     mib = (double)fbytes / 1048576.0;
         char label[64];
         snprintf(label, sizeof label, "%s: read() only", names[f]);
         printf("%-28s %10.1f %12s %12s %10.2f\n", label, mib, "-", "-",

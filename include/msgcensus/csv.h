@@ -1,4 +1,5 @@
-/* csv.h - the CSV text form of trace records (docs/trace-format.md, "CSV text form"): streaming import and export. */
+/* csv.h - the CSV text form of trace records (docs/trace-format.md, "CSV text
+ * form"): streaming import and export. */
 #ifndef MSGCENSUS_CSV_H
 #define MSGCENSUS_CSV_H
 

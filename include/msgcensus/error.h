@@ -48,14 +48,14 @@ typedef enum mc_errcode {
  * knows. Callers pass a zeroed struct or NULL (then only the code is
  * returned). */
 typedef struct mc_errinfo {
-    int code;          /* the MC_E* code, same as the return value */
-    int sys_errno;     /* errno of a failed system call, 0 if none */
-    char path[1024];   /* file the error is about, "" if none */
-    int64_t block;     /* block index in the file, -1 if none */
-    int64_t offset;    /* byte offset in the file, -1 if none */
-    int64_t line;      /* 1-based line for text input, 0 if none */
-    int64_t column;    /* 1-based column for text input, 0 if none */
-    char detail[256];  /* one short phrase adding to the code's text */
+    int code;         /* the MC_E* code, same as the return value */
+    int sys_errno;    /* errno of a failed system call, 0 if none */
+    char path[1024];  /* file the error is about, "" if none */
+    int64_t block;    /* block index in the file, -1 if none */
+    int64_t offset;   /* byte offset in the file, -1 if none */
+    int64_t line;     /* 1-based line for text input, 0 if none */
+    int64_t column;   /* 1-based column for text input, 0 if none */
+    char detail[256]; /* one short phrase adding to the code's text */
 } mc_errinfo;
 
 /*! mc_errname() : @return "MC_ECHECKSUM" style name, "MC_OK", or "MC_E?" */
@@ -72,7 +72,8 @@ MC_API void mc_errinfo_clear(mc_errinfo *info);
  *  "run/rank-17.mct: block 3 at offset 1048576: block checksum mismatch
  *  (stored 0x1234, computed 0x5678)". Writes at most @cap bytes, always
  *  NUL-terminated when cap > 0.
- *  @return the number of characters that the full line needs (like snprintf). */
+ *  @return the number of characters that the full line needs (like snprintf).
+ */
 MC_API int mc_errinfo_format(const mc_errinfo *info, char *buf, size_t cap);
 
 /*! mc_errinfo_set() :

@@ -22,24 +22,24 @@
 #define MC_TRACE_HOST_LEN 64u      /* host name field, NUL padded */
 #define MC_BLOCK_MAGIC 0x4b42434du /* "MCBK" little-endian */
 #define MC_BLOCK_HEADER_SIZE 40u
-#define MC_RECORD_SIZE 48u         /* record size of v1.0 */
-#define MC_INDEX_MAGIC 0x5849434du /* "MCIX" little-endian */
+#define MC_RECORD_SIZE 48u           /* record size of v1.0 */
+#define MC_INDEX_MAGIC 0x5849434du   /* "MCIX" little-endian */
 #define MC_TRAILER_MAGIC 0x444e434du /* "MCND" little-endian */
 #define MC_TRAILER_SIZE 16u
-#define MC_BLOCK_MAX_RECORDS (1u << 20)  /* reader's limit per block */
-#define MC_BLOCK_DEFAULT_RECORDS 16384u  /* 768 KiB raw per block */
+#define MC_BLOCK_MAX_RECORDS (1u << 20)    /* reader's limit per block */
+#define MC_BLOCK_DEFAULT_RECORDS 16384u    /* 768 KiB raw per block */
 #define MC_BLOCK_MAX_RAW_BYTES (64u << 20) /* reader's limit on raw_len */
-#define MC_TRACE_MAX_HEADER_SIZE 65536u  /* reader's limit on header_size */
-#define MC_FOOTER_ENTRY_SIZE 16u         /* one footer index entry */
+#define MC_TRACE_MAX_HEADER_SIZE 65536u    /* reader's limit on header_size */
+#define MC_FOOTER_ENTRY_SIZE 16u           /* one footer index entry */
 
-#define MC_PEER_NONE (-1)        /* no peer (collectives, or unknown) */
-#define MC_TAG_NONE (-1)         /* no tag (collectives, one-sided) */
+#define MC_PEER_NONE (-1) /* no peer (collectives, or unknown) */
+#define MC_TAG_NONE (-1)  /* no tag (collectives, one-sided) */
 
 /* Record flags (mc_record.flags). */
-#define MC_RF_POSTED_SIZE 0x01u  /* receive: posted size, actual not known */
-#define MC_RF_IN_PLACE 0x02u     /* collective called with MPI_IN_PLACE */
-#define MC_RF_PER_PEER 0x04u     /* one of several per-peer records of a call */
-#define MC_RF_KNOWN_MASK 0x07u   /* reader rejects other bits in v1.0 */
+#define MC_RF_POSTED_SIZE 0x01u /* receive: posted size, actual not known */
+#define MC_RF_IN_PLACE 0x02u    /* collective called with MPI_IN_PLACE */
+#define MC_RF_PER_PEER 0x04u    /* one of several per-peer records of a call */
+#define MC_RF_KNOWN_MASK 0x07u  /* reader rejects other bits in v1.0 */
 
 typedef enum mc_codec { MC_CODEC_NONE = 0, MC_CODEC_ZSTD = 1 } mc_codec;
 
@@ -67,12 +67,12 @@ typedef struct mc_record {
 typedef struct mc_trace_header {
     uint16_t version_major;
     uint16_t version_minor;
-    uint32_t flags;            /* zero in v1.0 */
-    int32_t app_rank;          /* world rank of the traced process */
-    int32_t app_size;          /* world size of the traced job */
-    uint64_t clock_res_ps;     /* clock resolution in picoseconds */
-    int64_t created_unix_ns;   /* creation time, ns since 1970-01-01 UTC */
-    uint64_t epoch_unix_ns;    /* t=0 of the record times, ns since 1970 */
+    uint32_t flags;          /* zero in v1.0 */
+    int32_t app_rank;        /* world rank of the traced process */
+    int32_t app_size;        /* world size of the traced job */
+    uint64_t clock_res_ps;   /* clock resolution in picoseconds */
+    int64_t created_unix_ns; /* creation time, ns since 1970-01-01 UTC */
+    uint64_t epoch_unix_ns;  /* t=0 of the record times, ns since 1970 */
     char host[MC_TRACE_HOST_LEN + 1]; /* NUL-terminated host name */
 } mc_trace_header;
 
@@ -150,10 +150,10 @@ MC_API uint64_t mc_trace_writer_records(const mc_trace_writer *w);
 
 /* Where one block lies in a file. */
 typedef struct mc_block_info {
-    uint64_t offset;   /* byte offset of the block header */
-    uint32_t nrecords; /* records in the block */
+    uint64_t offset;     /* byte offset of the block header */
+    uint32_t nrecords;   /* records in the block */
     uint32_t stored_len; /* payload bytes after the header */
-    uint32_t seq;      /* block sequence number written by the writer */
+    uint32_t seq;        /* block sequence number written by the writer */
 } mc_block_info;
 
 typedef struct mc_trace_reader mc_trace_reader;

@@ -10,8 +10,8 @@
 /* Exit statuses of every subcommand. */
 enum {
     MC_EXIT_OK = 0,
-    MC_EXIT_FAIL = 1,  /* the work failed (damage, I/O, ...) */
-    MC_EXIT_USAGE = 2  /* bad command line */
+    MC_EXIT_FAIL = 1, /* the work failed (damage, I/O, ...) */
+    MC_EXIT_USAGE = 2 /* bad command line */
 };
 
 /* One verbosity setting for the whole command: 0 quiet, 1 normal, 2 verbose.

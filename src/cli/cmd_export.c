@@ -11,18 +11,19 @@
 
 static void usage(FILE *out)
 {
-    fprintf(out,
-            "usage: msgcensus export IN.mct [-o OUT.csv] [OPTIONS]\n\n"
-            "Write the records of a trace as CSV text (docs/trace-format.md, "
-            "\"CSV text\nform\"), with the trace header as '# key=value' "
-            "lines. Standard output\nby default. 'msgcensus import' reads "
-            "the result back into identical records.\n\n"
-            "Options:\n"
-            "  -o, --output FILE   CSV file to write instead of standard output\n"
-            "  -f, --force         replace FILE if it exists\n"
-            "  -q, --quiet         print errors only\n"
-            "  -v, --verbose       say more\n"
-            "  -h, --help          this help\n");
+    fprintf(
+        out,
+        "usage: msgcensus export IN.mct [-o OUT.csv] [OPTIONS]\n\n"
+        "Write the records of a trace as CSV text (docs/trace-format.md, "
+        "\"CSV text\nform\"), with the trace header as '# key=value' "
+        "lines. Standard output\nby default. 'msgcensus import' reads "
+        "the result back into identical records.\n\n"
+        "Options:\n"
+        "  -o, --output FILE   CSV file to write instead of standard output\n"
+        "  -f, --force         replace FILE if it exists\n"
+        "  -q, --quiet         print errors only\n"
+        "  -v, --verbose       say more\n"
+        "  -h, --help          this help\n");
 }
 
 int mc_cmd_export(int argc, char **argv)
@@ -87,7 +88,8 @@ int mc_cmd_export(int argc, char **argv)
             char line[256];
             mc_errinfo rerr;
             mc_errinfo_clear(&rerr);
-            const int k = mc_csv_format_record(&recs[i], line, sizeof line, &rerr);
+            const int k =
+                mc_csv_format_record(&recs[i], line, sizeof line, &rerr);
             if (k < 0) {
                 mc_errinfo_set(&err, MC_ERECORD, in_path, (int64_t)bi,
                                (int64_t)boff, "record %zu of the block: %s", i,

@@ -62,8 +62,10 @@ int mc_cmd_import(int argc, char **argv)
         } else if (!strcmp(a, "--rank") || !strcmp(a, "--size")) {
             int32_t v;
             if (!has_arg || parse_i32(argv[i + 1], &v))
-                return mc_cli_usage_error(cmd, "%s needs a number from 0 to "
-                                          "2147483647", a);
+                return mc_cli_usage_error(cmd,
+                                          "%s needs a number from 0 to "
+                                          "2147483647",
+                                          a);
             i++;
             if (a[2] == 'r') {
                 rank = v;
@@ -85,7 +87,8 @@ int mc_cmd_import(int argc, char **argv)
             uint64_t v;
             if (!has_arg || mc_parse_u64(argv[i + 1], &v) || v == 0 ||
                 v > MC_BLOCK_MAX_RECORDS)
-                return mc_cli_usage_error(cmd, "--block-records needs a "
+                return mc_cli_usage_error(cmd,
+                                          "--block-records needs a "
                                           "number from 1 to %u",
                                           MC_BLOCK_MAX_RECORDS);
             wo.block_records = (uint32_t)v;
@@ -139,19 +142,22 @@ int mc_cmd_import(int argc, char **argv)
         hdr.created_unix_ns = (int64_t)ts.tv_sec * 1000000000 + ts.tv_nsec;
     }
     if (!have_rank && !(meta->present & MC_CSV_HAVE_RANK)) {
-        mc_errinfo_set(&err, MC_EINVAL, in_path, -1, -1, "the application "
+        mc_errinfo_set(&err, MC_EINVAL, in_path, -1, -1,
+                       "the application "
                        "rank is unknown: give --rank or a '# app_rank=' line");
         goto fail;
     }
     if (!have_size && !(meta->present & MC_CSV_HAVE_SIZE)) {
-        mc_errinfo_set(&err, MC_EINVAL, in_path, -1, -1, "the application "
+        mc_errinfo_set(&err, MC_EINVAL, in_path, -1, -1,
+                       "the application "
                        "size is unknown: give --size or a '# app_size=' line");
         goto fail;
     }
     if (hdr.app_size < 1 || hdr.app_rank < 0 || hdr.app_rank >= hdr.app_size) {
-        mc_errinfo_set(&err, MC_ERANGE, in_path, -1, -1, "application rank %d "
-                       "is not within 0..size-1 (size %d)", (int)hdr.app_rank,
-                       (int)hdr.app_size);
+        mc_errinfo_set(&err, MC_ERANGE, in_path, -1, -1,
+                       "application rank %d "
+                       "is not within 0..size-1 (size %d)",
+                       (int)hdr.app_rank, (int)hdr.app_size);
         goto fail;
     }
     if ((rc = mc_outfile_begin(&of, out_path, force, &err)))

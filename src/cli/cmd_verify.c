@@ -1,4 +1,5 @@
-/* cmd_verify.c - the verify subcommand: check every file and block of a campaign, and the campaign as a whole. */
+/* cmd_verify.c - the verify subcommand: check every file and block of a
+ * campaign, and the campaign as a whole. */
 #include "cli.h"
 
 #include <dirent.h>   /* opendir, readdir */
@@ -48,7 +49,9 @@ static int cmp_names(const void *a, const void *b)
 static int cmp_ranks(const void *a, const void *b)
 {
     const rank_entry *x = a, *y = b;
-    return x->rank < y->rank ? -1 : x->rank > y->rank ? 1 : strcmp(x->name, y->name);
+    return x->rank < y->rank   ? -1
+           : x->rank > y->rank ? 1
+                               : strcmp(x->name, y->name);
 }
 
 /* Check one file; on success fill *hdr. @return 1 intact, 0 damaged. */
@@ -71,8 +74,8 @@ static int verify_file(const char *path, totals *t, mc_trace_header *hdr)
     *hdr = c.header;
     if (mc_cli_verbosity >= 2) {
         char b[32];
-        printf("ok %s: rank %d of %d, %llu blocks, %llu records, %s%s\n",
-               path, (int)c.header.app_rank, (int)c.header.app_size,
+        printf("ok %s: rank %d of %d, %llu blocks, %llu records, %s%s\n", path,
+               (int)c.header.app_rank, (int)c.header.app_size,
                (unsigned long long)c.blocks, (unsigned long long)c.records,
                mc_format_bytes((double)c.file_bytes, b, sizeof b),
                c.has_footer ? "" : ", no footer (the writer did not close)");
@@ -83,8 +86,8 @@ static int verify_file(const char *path, totals *t, mc_trace_header *hdr)
 #if defined(__GNUC__)
 __attribute__((format(printf, 4, 5)))
 #endif
-static void campaign_problem(totals *t, int code, const char *dir,
-                             const char *fmt, ...)
+static void
+campaign_problem(totals *t, int code, const char *dir, const char *fmt, ...)
 {
     mc_errinfo err;
     mc_errinfo_clear(&err);
@@ -107,8 +110,9 @@ static void check_campaign(const char *dir, rank_entry *e, size_t n, totals *t)
         if (e[i].size != e[0].size) {
             campaign_problem(t, MC_ECAMPAIGN, dir,
                              "files disagree on the application size: %s says "
-                             "%d, %s says %d", e[0].name, (int)e[0].size,
-                             e[i].name, (int)e[i].size);
+                             "%d, %s says %d",
+                             e[0].name, (int)e[0].size, e[i].name,
+                             (int)e[i].size);
             return; /* missing ranks mean nothing without one size */
         }
     qsort(e, n, sizeof *e, cmp_ranks);
@@ -162,7 +166,8 @@ static void verify_dir(const char *dir, totals *t)
     if (!d) {
         mc_errinfo err;
         mc_errinfo_clear(&err);
-        mc_errinfo_set(&err, MC_EOPEN, dir, -1, -1, "cannot read the directory");
+        mc_errinfo_set(&err, MC_EOPEN, dir, -1, -1,
+                       "cannot read the directory");
         mc_cli_error(&err, MC_EOPEN, dir);
         t->campaign_problems++;
         return;
@@ -215,7 +220,8 @@ static void verify_dir(const char *dir, totals *t)
         mc_trace_header h;
         if (verify_file(names[i], t, &h) && ranks) {
             const char *slash = strrchr(names[i], '/');
-            ranks[nr++] = (rank_entry){h.app_rank, h.app_size, (char *)(uintptr_t)(slash + 1)};
+            ranks[nr++] = (rank_entry){h.app_rank, h.app_size,
+                                       (char *)(uintptr_t)(slash + 1)};
         }
     }
     if (ranks)

@@ -1,4 +1,5 @@
-/* outfile.c - write-to-temporary-then-rename for CLI outputs, never replacing a file without --force. */
+/* outfile.c - write-to-temporary-then-rename for CLI outputs, never replacing a
+ * file without --force. */
 #include "outfile.h"
 
 #include <errno.h>    /* errno, EEXIST */

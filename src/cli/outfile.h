@@ -1,4 +1,5 @@
-/* outfile.h - output files of the CLI: refuse to overwrite without --force, write to a temporary name, then rename. */
+/* outfile.h - output files of the CLI: refuse to overwrite without --force,
+ * write to a temporary name, then rename. */
 #ifndef MSGCENSUS_OUTFILE_H
 #define MSGCENSUS_OUTFILE_H
 

@@ -21,11 +21,19 @@ int mc_parse_u64(const char *s, uint64_t *out)
         uint64_t mul;
     } units[] = {
         {"", 1},
-        {"K", 1000ull}, {"k", 1000ull}, {"M", 1000000ull},
-        {"G", 1000000000ull}, {"T", 1000000000000ull},
-        {"KiB", 1ull << 10}, {"MiB", 1ull << 20}, {"GiB", 1ull << 30},
-        {"TiB", 1ull << 40}, {"Ki", 1ull << 10}, {"Mi", 1ull << 20},
-        {"Gi", 1ull << 30}, {"Ti", 1ull << 40},
+        {"K", 1000ull},
+        {"k", 1000ull},
+        {"M", 1000000ull},
+        {"G", 1000000000ull},
+        {"T", 1000000000000ull},
+        {"KiB", 1ull << 10},
+        {"MiB", 1ull << 20},
+        {"GiB", 1ull << 30},
+        {"TiB", 1ull << 40},
+        {"Ki", 1ull << 10},
+        {"Mi", 1ull << 20},
+        {"Gi", 1ull << 30},
+        {"Ti", 1ull << 40},
     };
     for (size_t i = 0; i < sizeof units / sizeof units[0]; i++) {
         if (strcmp(s, units[i].suffix) == 0) {

@@ -1,4 +1,5 @@
-/* csv.c - the CSV text form of trace records: a streaming line parser with precise errors, and the exporter. */
+/* csv.c - the CSV text form of trace records: a streaming line parser with
+ * precise errors, and the exporter. */
 #include <msgcensus/csv.h>
 
 #include <inttypes.h> /* PRIu64, PRId64 */
@@ -11,15 +12,15 @@
 struct mc_csv_reader {
     FILE *in;
     char *name;
-    long long line;            /* line read last */
+    long long line; /* line read last */
     char buf[MC_CSV_MAX_LINE + 2];
-    size_t len;                /* bytes in buf, without the newline */
+    size_t len; /* bytes in buf, without the newline */
     mc_csv_meta meta;
 };
 
 static const char *const field_names[MC_CSV_FIELDS] = {
-    "op", "dir", "peer", "bytes", "comm_id", "comm_size", "tag",
-    "t_start_ns", "t_end_ns", "flags"};
+    "op",        "dir", "peer",       "bytes",    "comm_id",
+    "comm_size", "tag", "t_start_ns", "t_end_ns", "flags"};
 
 /* Read one line into r->buf. @return 1, 0 at EOF, or MC_ECSV / MC_EIO. A
  * trailing "\r" is dropped, so CRLF files read like LF files. */
@@ -55,8 +56,9 @@ static int read_line(mc_csv_reader *r, mc_errinfo *err)
 #if defined(__GNUC__)
 __attribute__((format(printf, 4, 5)))
 #endif
-static int csv_error(const mc_csv_reader *r, mc_errinfo *err, size_t column,
-                     const char *fmt, ...)
+static int
+csv_error(const mc_csv_reader *r, mc_errinfo *err, size_t column,
+          const char *fmt, ...)
 {
     if (!err)
         return MC_ECSV;
@@ -113,10 +115,11 @@ static int unescape(const char *s, char *out, size_t cap)
             unsigned v = 0;
             for (int k = 1; k <= 2; k++) {
                 const char h = s[i + (size_t)k];
-                const unsigned d = h >= '0' && h <= '9'   ? (unsigned)(h - '0')
-                                   : h >= 'a' && h <= 'f' ? (unsigned)(h - 'a' + 10)
-                                   : h >= 'A' && h <= 'F' ? (unsigned)(h - 'A' + 10)
-                                                          : 16u;
+                const unsigned d =
+                    h >= '0' && h <= '9'   ? (unsigned)(h - '0')
+                    : h >= 'a' && h <= 'f' ? (unsigned)(h - 'a' + 10)
+                    : h >= 'A' && h <= 'F' ? (unsigned)(h - 'A' + 10)
+                                           : 16u;
                 if (d == 16)
                     return -1;
                 v = v * 16 + d;
@@ -177,13 +180,15 @@ static int parse_comment(mc_csv_reader *r, mc_errinfo *err)
         }
     } else if (KEY("created_unix_ns")) {
         if (parse_signed(val, vlen, INT64_MIN, INT64_MAX, &s))
-            return csv_error(r, err, col, "expected an integer for "
+            return csv_error(r, err, col,
+                             "expected an integer for "
                              "created_unix_ns");
         h->created_unix_ns = s;
         r->meta.present |= MC_CSV_HAVE_CREATED;
     } else if (KEY("host")) {
         if (unescape(val, h->host, sizeof h->host))
-            return csv_error(r, err, col, "host must be at most %u bytes, "
+            return csv_error(r, err, col,
+                             "host must be at most %u bytes, "
                              "with %%XX escapes and no NUL",
                              MC_TRACE_HOST_LEN);
         r->meta.present |= MC_CSV_HAVE_HOST;
@@ -267,7 +272,8 @@ int mc_csv_read(mc_csv_reader *r, mc_record *rec, mc_errinfo *err)
             return rc;
     } while (r->len == 0);
     if (r->buf[0] == '#')
-        return csv_error(r, err, 1, "comment lines are allowed only before "
+        return csv_error(r, err, 1,
+                         "comment lines are allowed only before "
                          "the header row");
     /* Split at commas; fields never contain commas, so there is no quoting. */
     const char *f[MC_CSV_FIELDS];
@@ -286,22 +292,26 @@ int mc_csv_read(mc_csv_reader *r, mc_record *rec, mc_errinfo *err)
         start = i + 1;
     }
     if (nf < MC_CSV_FIELDS)
-        return csv_error(r, err, r->len + 1, "expected %d fields, found %zu "
-                         "(missing column %s)", MC_CSV_FIELDS, nf,
-                         field_names[nf]);
+        return csv_error(r, err, r->len + 1,
+                         "expected %d fields, found %zu "
+                         "(missing column %s)",
+                         MC_CSV_FIELDS, nf, field_names[nf]);
     memset(rec, 0, sizeof *rec);
 
     /* op: an MPI name of the operation table. */
     char opname[64];
     if (flen[0] == 0 || flen[0] >= sizeof opname)
-        return csv_error(r, err, fcol[0], "expected an MPI operation name in "
+        return csv_error(r, err, fcol[0],
+                         "expected an MPI operation name in "
                          "column op");
     memcpy(opname, f[0], flen[0]);
     opname[flen[0]] = '\0';
     const unsigned op = mc_op_from_name(opname);
     if (op == MC_OP_NONE || strncmp(opname, "MPI_", 4) != 0)
-        return csv_error(r, err, fcol[0], "unknown operation '%s' in column op "
-                         "(expected a name like MPI_Isend)", opname);
+        return csv_error(r, err, fcol[0],
+                         "unknown operation '%s' in column op "
+                         "(expected a name like MPI_Isend)",
+                         opname);
     rec->op = (uint16_t)op;
 
     /* dir */
@@ -312,7 +322,8 @@ int mc_csv_read(mc_csv_reader *r, mc_record *rec, mc_errinfo *err)
     else if (flen[1] == 4 && !memcmp(f[1], "recv", 4))
         rec->dir = MC_DIR_RECV;
     else
-        return csv_error(r, err, fcol[1], "expected none, send or recv in "
+        return csv_error(r, err, fcol[1],
+                         "expected none, send or recv in "
                          "column dir");
 
     /* Integer columns. */
@@ -329,21 +340,29 @@ int mc_csv_read(mc_csv_reader *r, mc_record *rec, mc_errinfo *err)
     for (size_t k = 0; k < sizeof ints / sizeof ints[0]; k++) {
         const int c = ints[k].col;
         if (ints[k].is_signed) {
-            const int prc = parse_signed(f[c], flen[c], INT32_MIN, INT32_MAX, &sv);
+            const int prc =
+                parse_signed(f[c], flen[c], INT32_MIN, INT32_MAX, &sv);
             if (prc == -1)
-                return csv_error(r, err, fcol[c], "expected integer in column "
-                                 "%s", field_names[c]);
+                return csv_error(r, err, fcol[c],
+                                 "expected integer in column "
+                                 "%s",
+                                 field_names[c]);
             if (prc == -2)
-                return csv_error(r, err, fcol[c], "value out of range in "
-                                 "column %s (32-bit signed)", field_names[c]);
+                return csv_error(r, err, fcol[c],
+                                 "value out of range in "
+                                 "column %s (32-bit signed)",
+                                 field_names[c]);
             vals[c] = (uint64_t)sv;
         } else {
             const int prc = parse_unsigned(f[c], flen[c], ints[k].max, &uv);
             if (prc == -1)
-                return csv_error(r, err, fcol[c], "expected unsigned integer "
-                                 "in column %s", field_names[c]);
+                return csv_error(r, err, fcol[c],
+                                 "expected unsigned integer "
+                                 "in column %s",
+                                 field_names[c]);
             if (prc == -2)
-                return csv_error(r, err, fcol[c], "value out of range in "
+                return csv_error(r, err, fcol[c],
+                                 "value out of range in "
                                  "column %s (max %" PRIu64 ")",
                                  field_names[c], ints[k].max);
             vals[c] = uv;
@@ -358,10 +377,12 @@ int mc_csv_read(mc_csv_reader *r, mc_record *rec, mc_errinfo *err)
     rec->t_end_ns = vals[8];
     rec->flags = (uint8_t)vals[9];
     if (rec->t_end_ns < rec->t_start_ns)
-        return csv_error(r, err, fcol[8], "t_end_ns is earlier than "
+        return csv_error(r, err, fcol[8],
+                         "t_end_ns is earlier than "
                          "t_start_ns");
     if (rec->flags & ~MC_RF_KNOWN_MASK)
-        return csv_error(r, err, fcol[9], "unknown flag bits 0x%02x in column "
+        return csv_error(r, err, fcol[9],
+                         "unknown flag bits 0x%02x in column "
                          "flags (known 0x%02x)",
                          (unsigned)(rec->flags & ~MC_RF_KNOWN_MASK),
                          MC_RF_KNOWN_MASK);
@@ -388,18 +409,17 @@ int mc_csv_write_preamble(FILE *out, const mc_trace_header *hdr)
         }
     }
     host[n] = '\0';
-    const int k = fprintf(out,
-                          "# msgcensus trace records, CSV form of trace "
-                          "format %u.%u\n"
-                          "# app_rank=%" PRId32 "\n# app_size=%" PRId32 "\n"
-                          "# host=%s\n# clock_res_ps=%" PRIu64 "\n"
-                          "# created_unix_ns=%" PRId64 "\n"
-                          "# epoch_unix_ns=%" PRIu64 "\n%s\n",
-                          (unsigned)hdr->version_major,
-                          (unsigned)hdr->version_minor, hdr->app_rank,
-                          hdr->app_size, host, hdr->clock_res_ps,
-                          hdr->created_unix_ns, hdr->epoch_unix_ns,
-                          MC_CSV_HEADER_ROW);
+    const int k =
+        fprintf(out,
+                "# msgcensus trace records, CSV form of trace "
+                "format %u.%u\n"
+                "# app_rank=%" PRId32 "\n# app_size=%" PRId32 "\n"
+                "# host=%s\n# clock_res_ps=%" PRIu64 "\n"
+                "# created_unix_ns=%" PRId64 "\n"
+                "# epoch_unix_ns=%" PRIu64 "\n%s\n",
+                (unsigned)hdr->version_major, (unsigned)hdr->version_minor,
+                hdr->app_rank, hdr->app_size, host, hdr->clock_res_ps,
+                hdr->created_unix_ns, hdr->epoch_unix_ns, MC_CSV_HEADER_ROW);
     return k < 0 ? MC_EIO : 0;
 }
 

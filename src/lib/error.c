@@ -73,12 +73,13 @@ int mc_errinfo_set(mc_errinfo *info, int code, const char *path, int64_t block,
 #if defined(__GNUC__)
 __attribute__((format(printf, 4, 5)))
 #endif
-static void append(char *buf, size_t cap, size_t *n, const char *fmt, ...)
+static void
+append(char *buf, size_t cap, size_t *n, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
-    int k = vsnprintf(*n < cap ? buf + *n : NULL, *n < cap ? cap - *n : 0, fmt,
-                      ap);
+    int k =
+        vsnprintf(*n < cap ? buf + *n : NULL, *n < cap ? cap - *n : 0, fmt, ap);
     va_end(ap);
     if (k > 0)
         *n += (size_t)k;
@@ -101,8 +102,9 @@ int mc_errinfo_format(const mc_errinfo *info, char *buf, size_t cap)
             append(buf, cap, &n, ", column %lld", (long long)info->column);
         append(buf, cap, &n, ": ");
     } else if (info->block >= 0 && info->offset >= 0) {
-        append(buf, cap, &n, "block %lld at offset %lld: ",
-               (long long)info->block, (long long)info->offset);
+        append(buf, cap, &n,
+               "block %lld at offset %lld: ", (long long)info->block,
+               (long long)info->offset);
     } else if (info->block >= 0) {
         append(buf, cap, &n, "block %lld: ", (long long)info->block);
     } else if (info->offset >= 0) {

@@ -27,8 +27,8 @@ static const op_entry *op_lookup(unsigned code)
     switch (code) {
 #define MC_OP_CASE(c, name, cat, mode, dir)                                    \
     case c: {                                                                  \
-        static const op_entry e = {c, "MPI_" #name, MC_CAT_##cat,             \
-                                   MC_MODE_##mode, MC_DIR_##dir};             \
+        static const op_entry e = {c, "MPI_" #name, MC_CAT_##cat,              \
+                                   MC_MODE_##mode, MC_DIR_##dir};              \
         return &e;                                                             \
     }
         MC_OPS_MAP(MC_OP_CASE)
@@ -77,7 +77,10 @@ mc_dir mc_op_dir_of(unsigned code)
 
 unsigned mc_op_count(void) { return (unsigned)OP_TABLE_LEN; }
 
-unsigned mc_op_at(unsigned i) { return i < OP_TABLE_LEN ? op_table[i].code : 0; }
+unsigned mc_op_at(unsigned i)
+{
+    return i < OP_TABLE_LEN ? op_table[i].code : 0;
+}
 
 const char *mc_category_name(mc_op_category cat)
 {

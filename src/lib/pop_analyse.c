@@ -23,14 +23,14 @@ int mc_summary_pop_analyse(mc_summary_pop *p)
     if (!p->top || !p->peaks)
         return MC_ENOMEM;
     p->ntop = mc_topk(&own, MC_SUMMARY_TOP_SIZES, p->top);
-    const int np = mc_peaks(&own, MC_SUMMARY_PEAK_BINS_PER_OCTAVE,
-                            MC_SUMMARY_PEAK_MIN_PROMINENCE, p->peaks,
-                            MC_SUMMARY_PEAK_CAP);
+    const int np =
+        mc_peaks(&own, MC_SUMMARY_PEAK_BINS_PER_OCTAVE,
+                 MC_SUMMARY_PEAK_MIN_PROMINENCE, p->peaks, MC_SUMMARY_PEAK_CAP);
     if (np < 0)
         return np;
     p->npeaks = (size_t)np;
-    rc = mc_gmm_fit(&own, MC_SUMMARY_GMM_MAX_COMP, MC_SUMMARY_GMM_SEED,
-                    &p->gmm);
+    rc =
+        mc_gmm_fit(&own, MC_SUMMARY_GMM_MAX_COMP, MC_SUMMARY_GMM_SEED, &p->gmm);
     if (rc == MC_ENODATA) {
         memset(&p->gmm, 0, sizeof p->gmm);
         p->gmm.excluded_zero = p->stats.zero_count;

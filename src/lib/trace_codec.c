@@ -1,4 +1,5 @@
-/* trace_codec.c - encode and decode the file header, block headers and records of trace format v1. */
+/* trace_codec.c - encode and decode the file header, block headers and records
+ * of trace format v1. */
 #include "trace_internal.h"
 
 #include <stddef.h> /* offsetof */
@@ -71,8 +72,8 @@ int mc_trace_header_decode(const unsigned char *in, size_t len,
     const uint32_t mark = mc__get32(in + 12);
     if (mark != MC_TRACE_ENDIAN_MARK)
         return mc_errinfo_set(err, MC_EENDIAN, NULL, -1, 12,
-                              "byte order marker 0x%08x, expected 0x%08x",
-                              mark, MC_TRACE_ENDIAN_MARK);
+                              "byte order marker 0x%08x, expected 0x%08x", mark,
+                              MC_TRACE_ENDIAN_MARK);
     /* The version comes before the checksum: another major may lay out
      * the rest of the header differently. */
     const unsigned major = mc__get16(in + 8), minor = mc__get16(in + 10);
@@ -164,7 +165,8 @@ int mc_record_check(const mc_record *rec, mc_errinfo *err)
         rec->dir != MC_DIR_RECV)
         return mc_errinfo_set(err, MC_ERECORD, NULL, -1, -1,
                               "direction %u is not none (0), send (1) or "
-                              "recv (2)", (unsigned)rec->dir);
+                              "recv (2)",
+                              (unsigned)rec->dir);
     if (rec->flags & ~MC_RF_KNOWN_MASK)
         return mc_errinfo_set(err, MC_ERECORD, NULL, -1, -1,
                               "unknown flag bits 0x%02x (known 0x%02x)",
@@ -221,7 +223,8 @@ int mc__block_header_decode(const unsigned char in[MC_BLOCK_HEADER_SIZE],
     if (computed != bh->hdr_xxh32)
         return mc_errinfo_set(err, MC_EBLOCK, path, block, offset,
                               "block header checksum stored 0x%08x, computed "
-                              "0x%08x", bh->hdr_xxh32, computed);
+                              "0x%08x",
+                              bh->hdr_xxh32, computed);
     if (bh->codec != MC_CODEC_NONE && bh->codec != MC_CODEC_ZSTD)
         return mc_errinfo_set(err, MC_EBLOCK, path, block, offset,
                               "unknown codec %u", (unsigned)bh->codec);
@@ -244,7 +247,8 @@ int mc__block_header_decode(const unsigned char in[MC_BLOCK_HEADER_SIZE],
     if (bh->codec == MC_CODEC_NONE && bh->stored_len != bh->raw_len)
         return mc_errinfo_set(err, MC_EBLOCK, path, block, offset,
                               "uncompressed block stores %u bytes for a raw "
-                              "length of %u", bh->stored_len, bh->raw_len);
+                              "length of %u",
+                              bh->stored_len, bh->raw_len);
     if (bh->codec == MC_CODEC_ZSTD &&
         bh->stored_len > ZSTD_compressBound(bh->raw_len))
         return mc_errinfo_set(err, MC_EBLOCK, path, block, offset,

@@ -1,4 +1,5 @@
-/* trace_internal.h - little-endian byte helpers and block/footer layouts shared by the trace codec, writer and reader. */
+/* trace_internal.h - little-endian byte helpers and block/footer layouts shared
+ * by the trace codec, writer and reader. */
 #ifndef MSGCENSUS_TRACE_INTERNAL_H
 #define MSGCENSUS_TRACE_INTERNAL_H
 
@@ -15,7 +16,7 @@
  * little-endian machines too. */
 #if defined(MC_HOST_LE)
 /* set by the build */
-#elif defined(__BYTE_ORDER__) && defined(__ORDER_LITTLE_ENDIAN__) &&            \
+#elif defined(__BYTE_ORDER__) && defined(__ORDER_LITTLE_ENDIAN__) &&           \
     __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
 #define MC_HOST_LE 1
 #else

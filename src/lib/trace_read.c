@@ -1,4 +1,5 @@
-/* trace_read.c - the streaming block reader of trace format v1: footer index or block walk, checksums, zstd, range reads. */
+/* trace_read.c - the streaming block reader of trace format v1: footer index or
+ * block walk, checksums, zstd, range reads. */
 #include "trace_internal.h"
 
 #include <errno.h>    /* errno, EINTR */
@@ -30,10 +31,10 @@ struct mc_trace_reader {
     size_t win_cap, win_len;
     uint64_t win_off;
 
-    unsigned char *raw;  /* decompressed payload (zstd) */
+    unsigned char *raw; /* decompressed payload (zstd) */
     size_t raw_cap;
-    mc_record *recs;     /* converted records (big-endian host, or a record
-                          * size above 48, or an unaligned payload) */
+    mc_record *recs; /* converted records (big-endian host, or a record
+                      * size above 48, or an unaligned payload) */
     size_t recs_cap;
     ZSTD_DCtx *dctx;
 
@@ -63,7 +64,8 @@ static int read_at(mc_trace_reader *r, unsigned char *dst, size_t len,
 {
     size_t got = 0;
     while (got < len) {
-        const ssize_t k = pread(r->fd, dst + got, len - got, (off_t)(off + got));
+        const ssize_t k =
+            pread(r->fd, dst + got, len - got, (off_t)(off + got));
         if (k < 0) {
             if (errno == EINTR)
                 continue;
@@ -114,7 +116,8 @@ static int window_get(mc_trace_reader *r, uint64_t off, size_t len,
     }
     r->win_off = off;
     r->win_len = keep;
-    const int rc = read_at(r, r->win + keep, want - keep, off + keep, block, err);
+    const int rc =
+        read_at(r, r->win + keep, want - keep, off + keep, block, err);
     if (rc) {
         r->win_len = 0;
         return rc;
@@ -188,8 +191,8 @@ int mc_trace_open(const char *path, mc_trace_reader **out, mc_errinfo *err)
     if (r->file_size < r->header_size) {
         rc = mc_errinfo_set(err, MC_ETRUNC, path, -1, (int64_t)r->file_size,
                             "file of %llu bytes ends inside its %u-byte "
-                            "header", (unsigned long long)r->file_size,
-                            r->header_size);
+                            "header",
+                            (unsigned long long)r->file_size, r->header_size);
         goto fail;
     }
     r->next_off = r->cur_off = r->header_size;
@@ -245,8 +248,8 @@ static int read_footer(mc_trace_reader *r, mc_errinfo *err)
     unsigned char *f = NULL;
     mc_block_info *list = NULL;
     r->footer_state = FOOTER_INVALID;
-    const uint64_t min_end = (uint64_t)r->header_size + mc__footer_size(0) +
-                             MC_TRAILER_SIZE;
+    const uint64_t min_end =
+        (uint64_t)r->header_size + mc__footer_size(0) + MC_TRAILER_SIZE;
     if (r->file_size < min_end)
         FOOTER_FAIL(-1, "file too short for a footer");
     unsigned char t[MC_TRAILER_SIZE];
@@ -264,8 +267,10 @@ static int read_footer(mc_trace_reader *r, mc_errinfo *err)
                     (unsigned long long)foff);
     const uint64_t fsize = toff - foff; /* bounded by the file size */
     if ((fsize - mc__footer_size(0)) % MC_FOOTER_ENTRY_SIZE)
-        FOOTER_FAIL((int64_t)foff, "footer length %llu is not a whole number "
-                    "of entries", (unsigned long long)fsize);
+        FOOTER_FAIL((int64_t)foff,
+                    "footer length %llu is not a whole number "
+                    "of entries",
+                    (unsigned long long)fsize);
     /* Check the block count against the space before allocating: each
      * entry stands for a block of at least a 40-byte header. */
     unsigned char head[8];
@@ -273,16 +278,21 @@ static int read_footer(mc_trace_reader *r, mc_errinfo *err)
     if (rc)
         goto done;
     if (mc__get32(head) != MC_INDEX_MAGIC)
-        FOOTER_FAIL((int64_t)foff, "footer magic 0x%08x, expected 0x%08x "
-                    "(\"MCIX\")", mc__get32(head), MC_INDEX_MAGIC);
+        FOOTER_FAIL((int64_t)foff,
+                    "footer magic 0x%08x, expected 0x%08x "
+                    "(\"MCIX\")",
+                    mc__get32(head), MC_INDEX_MAGIC);
     if ((uint64_t)mc__get32(head + 4) * MC_BLOCK_HEADER_SIZE >
             foff - r->header_size ||
         fsize > SIZE_MAX / 2)
-        FOOTER_FAIL((int64_t)foff, "footer lists %u blocks, more than fit "
-                    "before it", mc__get32(head + 4));
+        FOOTER_FAIL((int64_t)foff,
+                    "footer lists %u blocks, more than fit "
+                    "before it",
+                    mc__get32(head + 4));
     f = malloc((size_t)fsize);
     if (!f) {
-        rc = mc_errinfo_set(err, MC_ENOMEM, r->path, -1, (int64_t)foff, "footer");
+        rc = mc_errinfo_set(err, MC_ENOMEM, r->path, -1, (int64_t)foff,
+                            "footer");
         goto done;
     }
     rc = read_at(r, f, (size_t)fsize, foff, -1, err);
@@ -290,19 +300,24 @@ static int read_footer(mc_trace_reader *r, mc_errinfo *err)
         goto done;
     const uint64_t nb = mc__get32(f + 4);
     if (mc__footer_size(nb) != fsize)
-        FOOTER_FAIL((int64_t)foff, "footer lists %llu blocks but has room for "
-                    "%llu", (unsigned long long)nb,
+        FOOTER_FAIL((int64_t)foff,
+                    "footer lists %llu blocks but has room for "
+                    "%llu",
+                    (unsigned long long)nb,
                     (unsigned long long)((fsize - mc__footer_size(0)) /
                                          MC_FOOTER_ENTRY_SIZE));
     const uint64_t sum_stored = mc__get64(f + fsize - 8);
     const uint64_t sum_computed = XXH64(f, (size_t)fsize - 8, 0);
     if (sum_stored != sum_computed)
-        FOOTER_FAIL((int64_t)foff, "footer checksum stored 0x%016llx, computed "
-                    "0x%016llx", (unsigned long long)sum_stored,
+        FOOTER_FAIL((int64_t)foff,
+                    "footer checksum stored 0x%016llx, computed "
+                    "0x%016llx",
+                    (unsigned long long)sum_stored,
                     (unsigned long long)sum_computed);
     list = malloc((nb ? (size_t)nb : 1) * sizeof *list);
     if (!list) {
-        rc = mc_errinfo_set(err, MC_ENOMEM, r->path, -1, (int64_t)foff, "footer");
+        rc = mc_errinfo_set(err, MC_ENOMEM, r->path, -1, (int64_t)foff,
+                            "footer");
         goto done;
     }
     /* Blocks are contiguous from header_size to the footer: each entry must
@@ -313,13 +328,15 @@ static int read_footer(mc_trace_reader *r, mc_errinfo *err)
         mc_block_info b = {mc__get64(e), mc__get32(e + 8), mc__get32(e + 12),
                            (uint32_t)i};
         if (b.offset != expect)
-            FOOTER_FAIL((int64_t)foff, "entry %llu says offset %llu, the "
-                        "previous block ends at %llu", (unsigned long long)i,
-                        (unsigned long long)b.offset,
+            FOOTER_FAIL((int64_t)foff,
+                        "entry %llu says offset %llu, the "
+                        "previous block ends at %llu",
+                        (unsigned long long)i, (unsigned long long)b.offset,
                         (unsigned long long)expect);
         if (b.nrecords > MC_BLOCK_MAX_RECORDS)
             FOOTER_FAIL((int64_t)foff, "entry %llu: %u records, limit %u",
-                        (unsigned long long)i, b.nrecords, MC_BLOCK_MAX_RECORDS);
+                        (unsigned long long)i, b.nrecords,
+                        MC_BLOCK_MAX_RECORDS);
         expect += MC_BLOCK_HEADER_SIZE + (uint64_t)b.stored_len;
         if (expect > foff)
             FOOTER_FAIL((int64_t)foff, "entry %llu runs past the footer",
@@ -328,13 +345,16 @@ static int read_footer(mc_trace_reader *r, mc_errinfo *err)
         list[i] = b;
     }
     if (expect != foff)
-        FOOTER_FAIL((int64_t)foff, "the blocks end at %llu, the footer starts "
-                    "at %llu", (unsigned long long)expect,
-                    (unsigned long long)foff);
+        FOOTER_FAIL((int64_t)foff,
+                    "the blocks end at %llu, the footer starts "
+                    "at %llu",
+                    (unsigned long long)expect, (unsigned long long)foff);
     r->footer_total = mc__get64(f + 8 + nb * MC_FOOTER_ENTRY_SIZE);
     if (r->footer_total != total)
-        FOOTER_FAIL((int64_t)foff, "footer total %llu records, its entries "
-                    "sum to %llu", (unsigned long long)r->footer_total,
+        FOOTER_FAIL((int64_t)foff,
+                    "footer total %llu records, its entries "
+                    "sum to %llu",
+                    (unsigned long long)r->footer_total,
                     (unsigned long long)total);
     r->footer = list;
     list = NULL;
@@ -408,8 +428,10 @@ int mc__trace_walk_index(mc_trace_reader *r, const mc_block_info **blocks,
             }
             if (hl < sizeof h) {
                 mc_errinfo_set(&r->walk_err, MC_ETRUNC, r->path, bi,
-                               (int64_t)off, "block header cut short: %zu of "
-                               "%u bytes", hl, MC_BLOCK_HEADER_SIZE);
+                               (int64_t)off,
+                               "block header cut short: %zu of "
+                               "%u bytes",
+                               hl, MC_BLOCK_HEADER_SIZE);
                 break;
             }
             mc__block_header bh;
@@ -418,16 +440,19 @@ int mc__trace_walk_index(mc_trace_reader *r, const mc_block_info **blocks,
                 break;
             if (bh.seq != (uint64_t)n) {
                 mc_errinfo_set(&r->walk_err, MC_EBLOCK, r->path, bi,
-                               (int64_t)off, "sequence number %u, expected "
-                               "%zu", bh.seq, n);
+                               (int64_t)off,
+                               "sequence number %u, expected "
+                               "%zu",
+                               bh.seq, n);
                 break;
             }
             if (rest - MC_BLOCK_HEADER_SIZE < bh.stored_len) {
-                mc_errinfo_set(&r->walk_err, MC_ETRUNC, r->path, bi,
-                               (int64_t)off, "block payload cut short: %llu "
-                               "of %u bytes",
-                               (unsigned long long)(rest - MC_BLOCK_HEADER_SIZE),
-                               bh.stored_len);
+                mc_errinfo_set(
+                    &r->walk_err, MC_ETRUNC, r->path, bi, (int64_t)off,
+                    "block payload cut short: %llu "
+                    "of %u bytes",
+                    (unsigned long long)(rest - MC_BLOCK_HEADER_SIZE),
+                    bh.stored_len);
                 break;
             }
             if (n == cap) {
@@ -441,7 +466,8 @@ int mc__trace_walk_index(mc_trace_reader *r, const mc_block_info **blocks,
                 list = nl;
                 cap = ncap;
             }
-            list[n++] = (mc_block_info){off, bh.nrecords, bh.stored_len, bh.seq};
+            list[n++] =
+                (mc_block_info){off, bh.nrecords, bh.stored_len, bh.seq};
             off += MC_BLOCK_HEADER_SIZE + (uint64_t)bh.stored_len;
         }
         r->walk = list;
@@ -491,7 +517,8 @@ int mc_trace_seek_block(mc_trace_reader *r, const mc_block_info *b,
         return mc_errinfo_set(err, MC_EINVAL, NULL, -1, -1, "missing argument");
     if (b->offset < r->header_size || b->offset > r->file_size)
         return mc_errinfo_set(err, MC_ERANGE, r->path, (int64_t)block_index,
-                              (int64_t)b->offset, "block offset outside the "
+                              (int64_t)b->offset,
+                              "block offset outside the "
                               "file's blocks");
     r->next_off = r->cur_off = b->offset;
     r->next_index = r->cur_index = block_index;
@@ -523,13 +550,13 @@ int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
     r->cur_index = r->next_index;
     *recs = NULL;
     *nrecs = 0;
-    if (off >= r->file_size || (r->footer_state == FOOTER_VALID &&
-                                off == r->footer_offset))
+    if (off >= r->file_size ||
+        (r->footer_state == FOOTER_VALID && off == r->footer_offset))
         return 0;
     const uint64_t rest = r->file_size - off;
     const unsigned char *p;
-    const size_t hl = rest < MC_BLOCK_HEADER_SIZE ? (size_t)rest
-                                                  : MC_BLOCK_HEADER_SIZE;
+    const size_t hl =
+        rest < MC_BLOCK_HEADER_SIZE ? (size_t)rest : MC_BLOCK_HEADER_SIZE;
     int rc = window_get(r, off, hl, &p, bi, err);
     if (rc)
         return rc;
@@ -568,8 +595,10 @@ int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
         if (fcs != ZSTD_CONTENTSIZE_UNKNOWN && fcs != bh.raw_len)
             return mc_errinfo_set(err, MC_ECODEC, r->path, bi, (int64_t)off,
                                   "zstd frame holds %llu bytes, block header "
-                                  "says %u", fcs, bh.raw_len);
-        const size_t flen = ZSTD_findFrameCompressedSize(payload, bh.stored_len);
+                                  "says %u",
+                                  fcs, bh.raw_len);
+        const size_t flen =
+            ZSTD_findFrameCompressedSize(payload, bh.stored_len);
         if (ZSTD_isError(flen) || flen != bh.stored_len)
             return mc_errinfo_set(err, MC_ECODEC, r->path, bi, (int64_t)off,
                                   "payload is not exactly one zstd frame");
@@ -587,7 +616,8 @@ int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
         if (k != bh.raw_len)
             return mc_errinfo_set(err, MC_ECODEC, r->path, bi, (int64_t)off,
                                   "zstd frame decoded to %zu bytes, expected "
-                                  "%u", k, bh.raw_len);
+                                  "%u",
+                                  k, bh.raw_len);
         raw = r->raw;
     }
     const uint64_t sum = XXH64(raw, bh.raw_len, 0);

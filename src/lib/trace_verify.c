@@ -1,17 +1,18 @@
-/* trace_verify.c - the whole-file check of one trace: header, walk, footer agreement, every block and record. */
+/* trace_verify.c - the whole-file check of one trace: header, walk, footer
+ * agreement, every block and record. */
 #include "trace_internal.h"
 
 #include <string.h> /* memset */
 
 /* Check that the footer and the walk list the same blocks. */
-static int compare_indexes(const char *path, const mc_block_info *f,
-                           size_t nf, uint64_t ftotal, const mc_block_info *w,
-                           size_t nw, mc_errinfo *err)
+static int compare_indexes(const char *path, const mc_block_info *f, size_t nf,
+                           uint64_t ftotal, const mc_block_info *w, size_t nw,
+                           mc_errinfo *err)
 {
     if (nf != nw)
         return mc_errinfo_set(err, MC_EFOOTER, path, -1, -1,
-                              "footer lists %zu blocks, the file holds %zu",
-                              nf, nw);
+                              "footer lists %zu blocks, the file holds %zu", nf,
+                              nw);
     uint64_t total = 0;
     for (size_t i = 0; i < nw; i++) {
         if (f[i].offset != w[i].offset || f[i].nrecords != w[i].nrecords ||
@@ -20,9 +21,9 @@ static int compare_indexes(const char *path, const mc_block_info *f,
                 err, MC_EFOOTER, path, (int64_t)i, (int64_t)w[i].offset,
                 "footer entry (offset %llu, %u records, %u bytes) differs "
                 "from the block header (offset %llu, %u records, %u bytes)",
-                (unsigned long long)f[i].offset, f[i].nrecords,
-                f[i].stored_len, (unsigned long long)w[i].offset,
-                w[i].nrecords, w[i].stored_len);
+                (unsigned long long)f[i].offset, f[i].nrecords, f[i].stored_len,
+                (unsigned long long)w[i].offset, w[i].nrecords,
+                w[i].stored_len);
         total += w[i].nrecords;
     }
     if (total != ftotal)
@@ -59,10 +60,9 @@ int mc_trace_verify(const char *path, mc_trace_check *out, mc_errinfo *err)
     /* Where the walk stopped tells whether a footer must follow: blocks
      * that end at the end of the file have none (a writer that did not
      * close), blocks followed by "MCIX" must have a valid one. */
-    const uint64_t end =
-        nwalk ? walk[nwalk - 1].offset + MC_BLOCK_HEADER_SIZE +
-                    walk[nwalk - 1].stored_len
-              : mc__trace_header_size(r);
+    const uint64_t end = nwalk ? walk[nwalk - 1].offset + MC_BLOCK_HEADER_SIZE +
+                                     walk[nwalk - 1].stored_len
+                               : mc__trace_header_size(r);
     if (end < c->file_bytes) {
         const mc_block_info *foot;
         size_t nfoot;
@@ -91,9 +91,9 @@ int mc_trace_verify(const char *path, mc_trace_check *out, mc_errinfo *err)
             mc_errinfo rerr;
             mc_errinfo_clear(&rerr);
             if (mc_record_check(&recs[i], &rerr)) {
-                rc = mc_errinfo_set(err, MC_ERECORD, path, (int64_t)bi,
-                                    (int64_t)boff, "record %zu of the block: %s",
-                                    i, rerr.detail);
+                rc = mc_errinfo_set(
+                    err, MC_ERECORD, path, (int64_t)bi, (int64_t)boff,
+                    "record %zu of the block: %s", i, rerr.detail);
                 goto done;
             }
         }

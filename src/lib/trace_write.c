@@ -1,11 +1,12 @@
-/* trace_write.c - the block writer of trace format v1: bounded buffers, optional zstd, footer index. */
+/* trace_write.c - the block writer of trace format v1: bounded buffers,
+ * optional zstd, footer index. */
 #include "trace_internal.h"
 
-#include <errno.h>    /* errno, EINTR */
-#include <fcntl.h>    /* open, O_* */
-#include <stdlib.h>   /* malloc, realloc, free */
-#include <string.h>   /* memcpy */
-#include <unistd.h>   /* write, close, fsync */
+#include <errno.h>  /* errno, EINTR */
+#include <fcntl.h>  /* open, O_* */
+#include <stdlib.h> /* malloc, realloc, free */
+#include <string.h> /* memcpy */
+#include <unistd.h> /* write, close, fsync */
 
 #include <xxhash.h> /* XXH64 */
 #include <zstd.h>   /* ZSTD_CCtx, ZSTD_compress2 */
@@ -18,15 +19,15 @@ struct mc_trace_writer {
      * then up to block_records records, so an uncompressed block goes out
      * with one write(). */
     unsigned char *raw;
-    size_t nbuf;             /* records in the raw buffer */
-    unsigned char *packed;   /* header room + zstd frame (zstd only) */
-    size_t packed_cap;       /* payload capacity of packed */
+    size_t nbuf;           /* records in the raw buffer */
+    unsigned char *packed; /* header room + zstd frame (zstd only) */
+    size_t packed_cap;     /* payload capacity of packed */
     ZSTD_CCtx *cctx;
-    uint64_t offset;         /* file offset of the next block */
-    uint64_t records;        /* records accepted */
-    mc_block_info *index;    /* one entry per written block */
+    uint64_t offset;      /* file offset of the next block */
+    uint64_t records;     /* records accepted */
+    mc_block_info *index; /* one entry per written block */
     size_t nblocks, index_cap;
-    int failed;              /* an error made the writer unusable */
+    int failed; /* an error made the writer unusable */
 };
 
 void mc_writer_opts_init(mc_writer_opts *opts)
@@ -91,11 +92,11 @@ int mc_trace_writer_open(const char *path, const mc_trace_header *hdr,
         o.block_records = MC_BLOCK_DEFAULT_RECORDS;
     if (o.block_records > MC_BLOCK_MAX_RECORDS)
         return mc_errinfo_set(err, MC_ERANGE, path, -1, -1,
-                              "%u records per block, limit %u",
-                              o.block_records, MC_BLOCK_MAX_RECORDS);
+                              "%u records per block, limit %u", o.block_records,
+                              MC_BLOCK_MAX_RECORDS);
     if (o.codec != MC_CODEC_NONE && o.codec != MC_CODEC_ZSTD)
-        return mc_errinfo_set(err, MC_EINVAL, path, -1, -1,
-                              "unknown codec %d", (int)o.codec);
+        return mc_errinfo_set(err, MC_EINVAL, path, -1, -1, "unknown codec %d",
+                              (int)o.codec);
 
     mc_trace_writer *w = calloc(1, sizeof *w);
     if (!w)
@@ -114,9 +115,10 @@ int mc_trace_writer_open(const char *path, const mc_trace_header *hdr,
         w->cctx = ZSTD_createCCtx();
         if (!w->packed || !w->cctx)
             goto fail;
-        if (ZSTD_isError(ZSTD_CCtx_setParameter(w->cctx, ZSTD_c_compressionLevel,
-                                                o.zstd_level)) ||
-            ZSTD_isError(ZSTD_CCtx_setParameter(w->cctx, ZSTD_c_checksumFlag, 0))) {
+        if (ZSTD_isError(ZSTD_CCtx_setParameter(
+                w->cctx, ZSTD_c_compressionLevel, o.zstd_level)) ||
+            ZSTD_isError(
+                ZSTD_CCtx_setParameter(w->cctx, ZSTD_c_checksumFlag, 0))) {
             rc = mc_errinfo_set(err, MC_EINVAL, path, -1, -1,
                                 "zstd level %d rejected", o.zstd_level);
             goto fail_set;
@@ -144,7 +146,8 @@ fail_set:
 }
 
 /* Append one entry to the footer index; on failure the old index stays. */
-static int index_add(mc_trace_writer *w, const mc_block_info *b, mc_errinfo *err)
+static int index_add(mc_trace_writer *w, const mc_block_info *b,
+                     mc_errinfo *err)
 {
     if (w->nblocks == w->index_cap) {
         const size_t cap = w->index_cap ? 2 * w->index_cap : 64;
@@ -177,8 +180,9 @@ static int write_block(mc_trace_writer *w, mc_errinfo *err)
     bh.raw_xxh64 = XXH64(payload, raw_len, 0);
     unsigned char *out = w->raw;
     if (w->opts.codec == MC_CODEC_ZSTD) {
-        const size_t k = ZSTD_compress2(w->cctx, w->packed + MC_BLOCK_HEADER_SIZE,
-                                        w->packed_cap, payload, raw_len);
+        const size_t k =
+            ZSTD_compress2(w->cctx, w->packed + MC_BLOCK_HEADER_SIZE,
+                           w->packed_cap, payload, raw_len);
         if (ZSTD_isError(k)) {
             w->failed = 1;
             return mc_errinfo_set(err, MC_ECODEC, w->path, (int64_t)w->nblocks,
@@ -217,7 +221,8 @@ int mc_trace_write(mc_trace_writer *w, const mc_record *recs, size_t n,
         size_t k = w->opts.block_records - w->nbuf;
         if (k > n)
             k = n;
-        unsigned char *dst = w->raw + MC_BLOCK_HEADER_SIZE + w->nbuf * MC_RECORD_SIZE;
+        unsigned char *dst =
+            w->raw + MC_BLOCK_HEADER_SIZE + w->nbuf * MC_RECORD_SIZE;
 #if MC_HOST_LE
         memcpy(dst, recs, k * MC_RECORD_SIZE);
 #else
@@ -299,10 +304,7 @@ int mc_trace_writer_close(mc_trace_writer *w, mc_errinfo *err)
     return rc;
 }
 
-void mc_trace_writer_abandon(mc_trace_writer *w)
-{
-    writer_free(w);
-}
+void mc_trace_writer_abandon(mc_trace_writer *w) { writer_free(w); }
 
 uint64_t mc_trace_writer_records(const mc_trace_writer *w)
 {

@@ -6,9 +6,9 @@
 #include <mpi-ext.h> /* MPIX_*_init persistent collectives of Open MPI 4.1 */
 #endif
 
-/* Byte conventions: docs/trace-format.md, byte conventions. Each collective call gives
- * one call record (dir NONE, peer NONE); MPI_Alltoallv/w also give one
- * MC_RF_PER_PEER send record per peer with a nonzero block. */
+/* Byte conventions: docs/trace-format.md, byte conventions. Each collective
+ * call gives one call record (dir NONE, peer NONE); MPI_Alltoallv/w also give
+ * one MC_RF_PER_PEER send record per peer with a nonzero block. */
 
 void mc__tap_coll_record(unsigned op, MPI_Comm comm, uint64_t bytes,
                          unsigned flags, uint64_t t0, uint64_t t1)

@@ -5,7 +5,8 @@
 #include <stdlib.h> /* malloc, free */
 #include <string.h> /* memset */
 
-/* Ids of the predefined communicators (docs/trace-format.md, byte conventions). */
+/* Ids of the predefined communicators (docs/trace-format.md, byte conventions).
+ */
 #define ID_WORLD 0u
 #define ID_SELF 1u
 

@@ -1,4 +1,5 @@
-/* test_csv.c - unit tests of the CSV text form: exact round trip, comment block, and errors with line and column. */
+/* test_csv.c - unit tests of the CSV text form: exact round trip, comment
+ * block, and errors with line and column. */
 #include <setjmp.h> /* cmocka needs jmp_buf */
 #include <stdarg.h> /* cmocka needs va_list */
 #include <stddef.h> /* cmocka needs size_t */
@@ -109,8 +110,8 @@ static void test_csv_roundtrip_is_exact(void **state)
 static void test_csv_line_format_is_documented_form(void **state)
 {
     (void)state;
-    const mc_record rec = {4096, 1000, 2500, 3, 64, 17, -1, MC_OP_Isend,
-                           MC_DIR_SEND, 1, 0};
+    const mc_record rec = {4096, 1000,        2500,        3, 64, 17,
+                           -1,   MC_OP_Isend, MC_DIR_SEND, 1, 0};
     char line[256];
     mc_csv_format_record(&rec, line, sizeof line, NULL);
     assert_string_equal(line, "MPI_Isend,send,17,4096,3,64,-1,1000,2500,1\n");
@@ -125,7 +126,8 @@ static void test_csv_accepts_blank_lines_crlf_and_free_comments(void **state)
     assert_int_equal(open_text("# a free comment, with = sign later\r\n\r\n"
                                "# app_rank=2\r\n" HDR
                                "MPI_Send,send,1,8,0,4,7,1,2,0\r\n\r\n",
-                               &f, &r, &e), 0);
+                               &f, &r, &e),
+                     0);
     assert_int_equal(mc_csv_reader_meta(r)->present, MC_CSV_HAVE_RANK);
     mc_record rec;
     assert_int_equal(mc_csv_read(r, &rec, &e), 1);

@@ -1,14 +1,15 @@
-/* test_trace.c - unit tests of trace format v1: byte layout, round trips, damage detection, truncation, range reads. */
+/* test_trace.c - unit tests of trace format v1: byte layout, round trips,
+ * damage detection, truncation, range reads. */
 #include <setjmp.h> /* cmocka needs jmp_buf */
 #include <stdarg.h> /* cmocka needs va_list */
 #include <stddef.h> /* cmocka needs size_t */
 #include <cmocka.h>
 
-#include <errno.h>    /* ENOENT */
-#include <stdio.h>    /* snprintf, FILE */
-#include <stdlib.h>   /* malloc, free, mkdtemp */
-#include <string.h>   /* memcmp, memset, strstr */
-#include <unistd.h>   /* truncate */
+#include <errno.h>  /* ENOENT */
+#include <stdio.h>  /* snprintf, FILE */
+#include <stdlib.h> /* malloc, free, mkdtemp */
+#include <string.h> /* memcmp, memset, strstr */
+#include <unistd.h> /* truncate */
 
 #include <msgcensus/ops.h>
 #include <msgcensus/trace.h>
@@ -45,8 +46,9 @@ static const char *tpath(const char *name)
 /* Deterministic records with every field varied. */
 static void make_records(mc_record *r, size_t n, uint64_t seed)
 {
-    static const unsigned ops[] = {MC_OP_Isend, MC_OP_Irecv, MC_OP_Allreduce,
-                                   MC_OP_Put, MC_OP_Alltoallv, MC_OP_Send};
+    static const unsigned ops[] = {MC_OP_Isend,     MC_OP_Irecv,
+                                   MC_OP_Allreduce, MC_OP_Put,
+                                   MC_OP_Alltoallv, MC_OP_Send};
     static const unsigned dirs[] = {MC_DIR_SEND, MC_DIR_RECV, MC_DIR_NONE,
                                     MC_DIR_SEND, MC_DIR_NONE, MC_DIR_SEND};
     uint64_t x = seed * 0x9e3779b97f4a7c15ull + 1;
@@ -182,31 +184,39 @@ static void spit(const char *path, const unsigned char *b, size_t len)
  * 0.8.1, `xxhsum -H32` / `xxhsum -H64`) over the same bytes. */
 
 static const unsigned char spec_header[128] = {
-    'M', 'C', 'T', 'R', 'A', 'C', 'E', 0x1a, /* 0: magic */
-    0x01, 0x00, 0x00, 0x00,                   /* 8: version 1.0 */
-    0x04, 0x03, 0x02, 0x01,                   /* 12: endian marker */
-    0x80, 0x00, 0x00, 0x00,                   /* 16: header_size 128 */
-    0x00, 0x00, 0x00, 0x00,                   /* 20: flags */
-    0x03, 0x00, 0x00, 0x00,                   /* 24: app_rank 3 */
-    0x08, 0x00, 0x00, 0x00,                   /* 28: app_size 8 */
-    0xe8, 0x03, 0, 0, 0, 0, 0, 0,             /* 32: clock_res_ps 1000 */
+    'M',  'C',  'T',  'R',  'A',  'C',  'E',  0x1a, /* 0: magic */
+    0x01, 0x00, 0x00, 0x00,                         /* 8: version 1.0 */
+    0x04, 0x03, 0x02, 0x01,                         /* 12: endian marker */
+    0x80, 0x00, 0x00, 0x00,                         /* 16: header_size 128 */
+    0x00, 0x00, 0x00, 0x00,                         /* 20: flags */
+    0x03, 0x00, 0x00, 0x00,                         /* 24: app_rank 3 */
+    0x08, 0x00, 0x00, 0x00,                         /* 28: app_size 8 */
+    0xe8, 0x03, 0,    0,    0,    0,    0,    0,    /* 32: clock_res_ps 1000 */
     0x78, 0x87, 0x96, 0xa5, 0xb4, 0xc3, 0xd2, 0x18, /* 40: created */
     0x00, 0x00, 0x00, 0xa5, 0xb4, 0xc3, 0xd2, 0x18, /* 48: epoch */
-    'n', 'o', 'd', 'e', '0', '1', '7', 0,     /* 56: host, NUL padded */
-    0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0,
-    0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0,
-    0, 0, 0, 0, 0, 0, 0, 0,
-    0x00, 0x00, 0x00, 0x00,                   /* 120: reserved */
-    0xe0, 0x78, 0x95, 0xe2,                   /* 124: XXH32 = 0xe29578e0 (xxhsum -H32) */
+    'n',  'o',  'd',  'e',  '0',  '1',  '7',  0,    /* 56: host, NUL padded */
+    0,    0,    0,    0,    0,    0,    0,    0,    0, 0, 0, 0, 0,
+    0,    0,    0,    0,    0,    0,    0,    0,    0, 0, 0, 0, 0,
+    0,    0,    0,    0,    0,    0,    0,    0,    0, 0, 0, 0, 0,
+    0,    0,    0,    0,    0,    0,    0,    0,    0, 0, 0, 0, 0,
+    0,    0,    0,    0,    0x00, 0x00, 0x00, 0x00, /* 120: reserved */
+    0xe0, 0x78, 0x95, 0xe2, /* 124: XXH32 = 0xe29578e0 (xxhsum -H32) */
 };
 
 /* Record A: every field distinct; record B: a collective. */
-static const mc_record spec_rec_a = {0x0102030405060708ull, 0x1112131415161718ull,
-                                     0x2122232425262728ull, 0x31323334u,
-                                     0x41424344u, -1, 0x51525354, MC_OP_Isend,
-                                     MC_DIR_SEND, 0x05, 0};
-static const mc_record spec_rec_b = {4096, 1000, 2500, 0, 8, 3, -1,
-                                     MC_OP_Allreduce, MC_DIR_NONE, 0x02, 0};
+static const mc_record spec_rec_a = {0x0102030405060708ull,
+                                     0x1112131415161718ull,
+                                     0x2122232425262728ull,
+                                     0x31323334u,
+                                     0x41424344u,
+                                     -1,
+                                     0x51525354,
+                                     MC_OP_Isend,
+                                     MC_DIR_SEND,
+                                     0x05,
+                                     0};
+static const mc_record spec_rec_b = {
+    4096, 1000, 2500, 0, 8, 3, -1, MC_OP_Allreduce, MC_DIR_NONE, 0x02, 0};
 static const unsigned char spec_records[96] = {
     0x08, 0x07, 0x06, 0x05, 0x04, 0x03, 0x02, 0x01, /* 0: bytes */
     0x18, 0x17, 0x16, 0x15, 0x14, 0x13, 0x12, 0x11, /* 8: t_start_ns */
@@ -219,28 +229,29 @@ static const unsigned char spec_records[96] = {
     0x01,                                           /* 42: dir send */
     0x05,                                           /* 43: flags */
     0x00, 0x00, 0x00, 0x00,                         /* 44: reserved */
-    0x00, 0x10, 0, 0, 0, 0, 0, 0,                   /* bytes 4096 */
-    0xe8, 0x03, 0, 0, 0, 0, 0, 0,                   /* t_start 1000 */
-    0xc4, 0x09, 0, 0, 0, 0, 0, 0,                   /* t_end 2500 */
-    0, 0, 0, 0,                                     /* comm_id 0 */
-    0x08, 0, 0, 0,                                  /* comm_size 8 */
-    0x03, 0, 0, 0,                                  /* peer 3 */
+    0x00, 0x10, 0,    0,    0,    0,    0,    0,    /* bytes 4096 */
+    0xe8, 0x03, 0,    0,    0,    0,    0,    0,    /* t_start 1000 */
+    0xc4, 0x09, 0,    0,    0,    0,    0,    0,    /* t_end 2500 */
+    0,    0,    0,    0,                            /* comm_id 0 */
+    0x08, 0,    0,    0,                            /* comm_size 8 */
+    0x03, 0,    0,    0,                            /* peer 3 */
     0xff, 0xff, 0xff, 0xff,                         /* tag -1 */
     0x70, 0x00,                                     /* op 112 (Allreduce) */
     0x00, 0x02,                                     /* dir none, flags */
-    0, 0, 0, 0,                                     /* reserved */
+    0,    0,    0,    0,                            /* reserved */
 };
 static const unsigned char spec_block_header[40] = {
-    0x4d, 0x43, 0x42, 0x4b,   /* 0: "MCBK" */
-    0x00, 0x00, 0x00, 0x00,   /* 4: seq 0 */
-    0x02, 0x00, 0x00, 0x00,   /* 8: nrecords 2 */
-    0x60, 0x00, 0x00, 0x00,   /* 12: raw_len 96 */
-    0x60, 0x00, 0x00, 0x00,   /* 16: stored_len 96 */
-    0x00, 0x00,               /* 20: codec none, flags */
-    0x30, 0x00,               /* 22: record_size 48 */
-    0x97, 0xb5, 0xf6, 0x79, 0x21, 0xe4, 0x52, 0xc5, /* 24: XXH64 0xc552e42179f6b597 (xxhsum -H64) */
-    0x09, 0x8e, 0xa0, 0xe8,   /* 32: XXH32 0xe8a08e09 (xxhsum -H32) */
-    0x00, 0x00, 0x00, 0x00,   /* 36: reserved */
+    0x4d, 0x43, 0x42, 0x4b, /* 0: "MCBK" */
+    0x00, 0x00, 0x00, 0x00, /* 4: seq 0 */
+    0x02, 0x00, 0x00, 0x00, /* 8: nrecords 2 */
+    0x60, 0x00, 0x00, 0x00, /* 12: raw_len 96 */
+    0x60, 0x00, 0x00, 0x00, /* 16: stored_len 96 */
+    0x00, 0x00,             /* 20: codec none, flags */
+    0x30, 0x00,             /* 22: record_size 48 */
+    0x97, 0xb5, 0xf6, 0x79,
+    0x21, 0xe4, 0x52, 0xc5, /* 24: XXH64 0xc552e42179f6b597 (xxhsum -H64) */
+    0x09, 0x8e, 0xa0, 0xe8, /* 32: XXH32 0xe8a08e09 (xxhsum -H32) */
+    0x00, 0x00, 0x00, 0x00, /* 36: reserved */
 };
 
 static void test_header_bytes_match_spec(void **state)
@@ -252,7 +263,8 @@ static void test_header_bytes_match_spec(void **state)
     mc_trace_header_encode(&h, out);
     assert_memory_equal(out, spec_header, sizeof spec_header);
     mc_trace_header d;
-    assert_int_equal(mc_trace_header_decode(spec_header, sizeof spec_header, &d, NULL), 0);
+    assert_int_equal(
+        mc_trace_header_decode(spec_header, sizeof spec_header, &d, NULL), 0);
     assert_int_equal(d.app_rank, 3);
     assert_int_equal(d.app_size, 8);
     assert_int_equal(d.clock_res_ps, 1000);
@@ -307,16 +319,16 @@ static void test_footer_bytes_match_spec(void **state)
     /* Footer at 264: MCIX, 1 block, {128, 2, 96}, total 2, XXH64; trailer. */
     assert_int_equal(len, 264 + 8 + 16 + 16 + 16);
     static const unsigned char foot[32] = {
-        0x4d, 0x43, 0x49, 0x58, 0x01, 0, 0, 0,  /* "MCIX", nblocks 1 */
-        0x80, 0, 0, 0, 0, 0, 0, 0,              /* offset 128 */
-        0x02, 0, 0, 0, 0x60, 0, 0, 0,           /* nrecords 2, stored 96 */
-        0x02, 0, 0, 0, 0, 0, 0, 0,              /* total_records 2 */
+        0x4d, 0x43, 0x49, 0x58, 0x01, 0, 0, 0, /* "MCIX", nblocks 1 */
+        0x80, 0,    0,    0,    0,    0, 0, 0, /* offset 128 */
+        0x02, 0,    0,    0,    0x60, 0, 0, 0, /* nrecords 2, stored 96 */
+        0x02, 0,    0,    0,    0,    0, 0, 0, /* total_records 2 */
     };
     assert_memory_equal(b + 264, foot, sizeof foot);
     /* Checksums over the spec's byte ranges, with libxxhash. */
     assert_true(mc__get64(b + 264 + 32) == XXH64(b + 264, 32, 0));
-    static const unsigned char trail[12] = {0x08, 0x01, 0, 0, 0, 0, 0, 0,
-                                            0x4d, 0x43, 0x4e, 0x44};
+    static const unsigned char trail[12] = {0x08, 0x01, 0,    0,    0,    0,
+                                            0,    0,    0x4d, 0x43, 0x4e, 0x44};
     assert_memory_equal(b + 304, trail, sizeof trail);
     assert_true(mc__get32(b + 316) == XXH32(b + 304, 12, 0));
     free(b);
@@ -487,8 +499,7 @@ static void test_truncated_mid_block_keeps_complete_blocks(void **state)
     mc_trace_reader *r;
     size_t nb;
     int ff, complete;
-    const mc_block_info *b = index_of(
-        p, &r, &nb, &ff, &complete, NULL);
+    const mc_block_info *b = index_of(p, &r, &nb, &ff, &complete, NULL);
     assert_int_equal(nb, 5);
     const uint64_t cut = b[3].offset + 40 + b[3].stored_len / 2;
     mc_trace_close(r);
@@ -496,8 +507,7 @@ static void test_truncated_mid_block_keeps_complete_blocks(void **state)
 
     mc_errinfo e;
     mc_errinfo_clear(&e);
-    b = index_of(
-        p, &r, &nb, &ff, &complete, &e);
+    b = index_of(p, &r, &nb, &ff, &complete, &e);
     assert_int_equal(ff, 0);
     assert_int_equal(complete, 0);
     assert_int_equal(nb, 3);
@@ -530,8 +540,7 @@ static void test_missing_footer_reads_all_complete_blocks(void **state)
     mc_trace_reader *rd;
     size_t nb;
     int ff, complete;
-    const mc_block_info *b = index_of(
-        p, &rd, &nb, &ff, &complete, NULL);
+    const mc_block_info *b = index_of(p, &rd, &nb, &ff, &complete, NULL);
     assert_int_equal(ff, 0);
     assert_int_equal(complete, 1);
     assert_int_equal(nb, 5);
@@ -578,7 +587,8 @@ static void test_unknown_major_version_names_both_versions(void **state)
     assert_string_equal(e.detail, "file is version 2.3, this reader reads 1.x");
 }
 
-static void test_later_minor_with_longer_header_and_records_is_read(void **state)
+static void
+test_later_minor_with_longer_header_and_records_is_read(void **state)
 {
     (void)state;
     /* A hand-made v1.1 file: 160-byte header, one block of 2 records of 56
@@ -594,7 +604,7 @@ static void test_later_minor_with_longer_header_and_records_is_read(void **state
     unsigned char *pl = f + 200;
     memcpy(pl, spec_records, 48);
     memcpy(pl + 56, spec_records + 48, 48);
-    mc__block_header bh = {MC_BLOCK_MAGIC, 0, 2, 112, 112, 0, 0, 56,
+    mc__block_header bh = {MC_BLOCK_MAGIC,    0, 2, 112, 112, 0, 0, 56,
                            XXH64(pl, 112, 0), 0, 0};
     mc__block_header_encode(&bh, f + 160);
     const char *p = tpath("v11.mct");
@@ -704,8 +714,7 @@ static void test_damaged_footer_falls_back_to_walk(void **state)
     mc_trace_reader *r;
     size_t nb;
     int ff, complete;
-    const mc_block_info *bl = index_of(
-        p, &r, &nb, &ff, &complete, NULL);
+    const mc_block_info *bl = index_of(p, &r, &nb, &ff, &complete, NULL);
     assert_int_equal(ff, 0);
     assert_int_equal(complete, 1);
     assert_int_equal(nb, 5);
@@ -753,8 +762,17 @@ static void test_hostile_record_count_is_rejected(void **state)
     mc_trace_header h;
     test_header(&h);
     mc_trace_header_encode(&h, f);
-    mc__block_header bh = {MC_BLOCK_MAGIC, 0, 0xffffffffu, 0xfffffff0u,
-                           0xfffffff0u, 0, 0, 48, 0, 0, 0};
+    mc__block_header bh = {MC_BLOCK_MAGIC,
+                           0,
+                           0xffffffffu,
+                           0xfffffff0u,
+                           0xfffffff0u,
+                           0,
+                           0,
+                           48,
+                           0,
+                           0,
+                           0};
     mc__block_header_encode(&bh, f + 128);
     const char *p = tpath("hostile.mct");
     spit(p, f, sizeof f);
@@ -784,8 +802,7 @@ static void test_seek_block_reads_one_range(void **state)
     mc_trace_reader *r;
     size_t nb;
     int ff, complete;
-    const mc_block_info *b = index_of(
-        p, &r, &nb, &ff, &complete, NULL);
+    const mc_block_info *b = index_of(p, &r, &nb, &ff, &complete, NULL);
     assert_int_equal(nb, 16); /* 15 full blocks of 64 and one of 40 */
     /* Blocks 9, then 3..4, then the last, out of order. */
     const size_t order[] = {9, 3, 4, 15};
@@ -866,7 +883,8 @@ static void test_verify_names_the_bad_record(void **state)
     mc_errinfo_clear(&e);
     assert_int_equal(mc_trace_verify(p, NULL, &e), MC_ERECORD);
     assert_int_equal(e.block, 1);
-    assert_string_equal(e.detail, "record 7 of the block: unknown operation code 999");
+    assert_string_equal(e.detail,
+                        "record 7 of the block: unknown operation code 999");
 }
 
 int main(void)
@@ -887,7 +905,8 @@ int main(void)
         cmocka_unit_test(test_missing_footer_reads_all_complete_blocks),
         cmocka_unit_test(test_bad_magic_is_rejected),
         cmocka_unit_test(test_unknown_major_version_names_both_versions),
-        cmocka_unit_test(test_later_minor_with_longer_header_and_records_is_read),
+        cmocka_unit_test(
+            test_later_minor_with_longer_header_and_records_is_read),
         cmocka_unit_test(test_empty_file_is_rejected),
         cmocka_unit_test(test_short_file_with_magic_prefix_is_truncated),
         cmocka_unit_test(test_writer_reports_uncreatable_path),
