@@ -30,6 +30,21 @@ static void usage(FILE *out)
             "and go on\n"
             "                     (default: stop at the first one)\n"
             "  -f, --force        replace an existing summary\n"
+            "  --checkpoint DIR   keep each finished unit of work in DIR; a "
+            "run that was\n"
+            "                     killed resumes from there when started "
+            "again with the\n"
+            "                     same arguments (any number of ranks); "
+            "removed once the\n"
+            "                     summary is written\n"
+            "  --checkpoint-unit SIZE  bytes per unit of work with "
+            "--checkpoint (default\n"
+            "                     64MiB): a kill loses at most this much "
+            "reading per rank\n"
+            "  --max-memory SIZE  stop with a message when the histograms "
+            "and tables of one\n"
+            "                     rank would hold more (e.g. 2GiB); "
+            "default: no limit\n"
             "  -q, --quiet        no progress and no result line\n"
             "  -v, --verbose      more detail in the result line\n"
             "  -h, --help         this help\n\n"
@@ -74,6 +89,38 @@ static void show_progress(void *ud, uint64_t done, uint64_t total,
     fflush(stderr);
 }
 
+/* Checkpoint and leftover-file lines: warnings always, notes at normal
+ * verbosity; a progress line on a terminal is ended first. */
+static void show_note(void *ud, int level, const char *msg)
+{
+    progress_state *ps = ud;
+    if (level > mc_cli_verbosity)
+        return;
+    if (ps->tty && ps->printed) {
+        fprintf(stderr, "\n");
+        ps->printed = 0;
+    }
+    if (level == 0)
+        fprintf(stderr, "msgcensus: warning: %s\n", msg);
+    else
+        fprintf(stderr, "reduce: %s\n", msg);
+}
+
+/* What to do when --max-memory stopped the run. */
+static void memory_hint(void)
+{
+    fprintf(stderr,
+            "msgcensus: hint: raise --max-memory (the figure above is what "
+            "that step needed),\n"
+            "  or drop --per-comm when per-communicator keys are many. Every "
+            "distinct size\n"
+            "  is kept exactly: 16 to 32 bytes each while reading, about 100 "
+            "on rank 0\n"
+            "  while the summary is built. More reducer ranks split the "
+            "reading, but rank 0\n"
+            "  holds the merged histograms.\n");
+}
+
 int mc_cmd_reduce(int argc, char **argv)
 {
     const char *cmd = argv[0];
@@ -97,6 +144,21 @@ int mc_cmd_reduce(int argc, char **argv)
             o.per_comm = 1;
         } else if (!strcmp(a, "--skip-damaged")) {
             o.skip_damaged = 1;
+        } else if (!strcmp(a, "--checkpoint")) {
+            if (++i == argc)
+                return mc_cli_usage_error(cmd,
+                                          "--checkpoint needs a directory");
+            o.checkpoint = argv[i];
+        } else if (!strcmp(a, "--checkpoint-unit") ||
+                   !strcmp(a, "--max-memory")) {
+            uint64_t v = 0;
+            if (++i == argc || mc_parse_u64(argv[i], &v) != 0 || v == 0)
+                return mc_cli_usage_error(
+                    cmd, "%s needs a positive size like 512MiB or 2GiB", a);
+            if (a[2] == 'c')
+                o.checkpoint_unit = v;
+            else
+                o.max_memory = v;
         } else if (!strcmp(a, "-f") || !strcmp(a, "--force")) {
             o.force = 1;
         } else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) {
@@ -116,6 +178,8 @@ int mc_cmd_reduce(int argc, char **argv)
         return mc_cli_usage_error(cmd, "no campaign directory given");
     if (!o.output)
         return mc_cli_usage_error(cmd, "no output given (-o SUMMARY.h5)");
+    if (o.checkpoint_unit && !o.checkpoint)
+        return mc_cli_usage_error(cmd, "--checkpoint-unit needs --checkpoint");
 
     if (MPI_Init(&argc, &argv) != MPI_SUCCESS) {
         fprintf(stderr, "msgcensus: %s\n", mc_strerror(MC_EMPI));
@@ -129,6 +193,8 @@ int mc_cmd_reduce(int argc, char **argv)
         o.progress = show_progress;
         o.progress_ud = &ps;
     }
+    o.note = show_note;
+    o.note_ud = &ps;
     mc_reduce_result res;
     mc_errinfo err;
     mc_errinfo_clear(&err);
@@ -138,6 +204,8 @@ int mc_cmd_reduce(int argc, char **argv)
             if (ps.tty && ps.printed)
                 fprintf(stderr, "\n"); /* end the progress line first */
             mc_cli_error(&err, rc, o.campaign);
+            if (rc == MC_ELIMIT)
+                memory_hint();
         } else if (mc_cli_verbosity >= 1) {
             char b[32], r[32];
             const double rate =

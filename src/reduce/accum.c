@@ -307,8 +307,9 @@ static int reduce_block(unit_ctx *c, const mc_record *recs, size_t n,
             continue;
         }
         /* Per-peer records of a collective repeat, peer by peer, bytes the
-         * call's own record already counts (docs/trace-format.md, byte conventions): they
-         * are read and checked but enter no population, total or matrix. */
+         * call's own record already counts (docs/trace-format.md, byte
+         * conventions): they are read and checked but enter no population,
+         * total or matrix. */
         if (r->flags & MC_RF_PER_PEER)
             continue;
         const unsigned k = (unsigned)r->op * MC__NDIRS + r->dir;

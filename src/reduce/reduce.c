@@ -2,6 +2,8 @@
  * merge, and on rank 0 build and safely write the summary. */
 #include "reduce.h"
 #include "reduce_internal.h"
+#include "checkpoint.h" /* --checkpoint */
+#include "memlimit.h"   /* --max-memory */
 
 #include <errno.h>    /* errno, EEXIST */
 #include <stdio.h>    /* snprintf, rename */
@@ -10,6 +12,8 @@
 #include <sys/stat.h> /* stat */
 #include <time.h>     /* time, gmtime_r, strftime */
 #include <unistd.h>   /* access, getpid, gethostname, link, unlink */
+#include <dirent.h>   /* opendir, readdir: leftover temporary files */
+#include <signal.h>   /* kill(pid, 0): is a writer still running */
 
 void mc_reduce_opts_init(mc_reduce_opts *o)
 {
@@ -78,12 +82,97 @@ static int write_summary(const mc_summary *s, const char *out, int force,
     return publish(tmp, out, force, err);
 }
 
+/* Temporary summaries of killed runs: DIR/.BASE.tmp-PID whose PID is no
+ * running process on this host (a kill -9 while writing leaves one; it is
+ * never at the target). The next run to the same target removes them. */
+static void remove_leftovers(const mc_reduce_opts *o)
+{
+    char dir[4096], pre[1100], path[8192];
+    const char *slash = strrchr(o->output, '/');
+    const char *base = slash ? slash + 1 : o->output;
+    if (slash && slash > o->output)
+        snprintf(dir, sizeof dir, "%.*s", (int)(slash - o->output), o->output);
+    else
+        snprintf(dir, sizeof dir, "%s", slash ? "/" : ".");
+    const int np = snprintf(pre, sizeof pre, ".%s.tmp-", base);
+    DIR *d = opendir(dir);
+    if (!d || np <= 0 || (size_t)np >= sizeof pre) {
+        if (d)
+            closedir(d);
+        return;
+    }
+    const struct dirent *de;
+    while ((de = readdir(d)) != NULL) {
+        if (strncmp(de->d_name, pre, (size_t)np) != 0)
+            continue;
+        const char *q = de->d_name + np;
+        long pid = 0;
+        while (*q >= '0' && *q <= '9' && pid < 1000000000L)
+            pid = pid * 10 + (*q++ - '0');
+        if (*q || pid <= 0 || pid == (long)getpid())
+            continue;
+        if (kill((pid_t)pid, 0) == 0 || errno != ESRCH)
+            continue; /* its writer may still run */
+        snprintf(path, sizeof path, "%s/%s", dir, de->d_name);
+        if (unlink(path) == 0 && o->note) {
+            char line[8300];
+            snprintf(line, sizeof line,
+                     "removed 1 temporary file(s) of an interrupted run: %s",
+                     path);
+            o->note(o->note_ud, 1, line);
+        }
+    }
+    closedir(d);
+}
+
 static void iso_now(char *buf, size_t cap)
 {
     const time_t t = time(NULL);
     struct tm tm;
     gmtime_r(&t, &tm);
     strftime(buf, cap, "%Y-%m-%dT%H:%M:%SZ", &tm);
+}
+
+/* Unit @i of this rank: from its checkpoint when it has one, else read;
+ * with a checkpoint directory a unit read is kept there before it is
+ * merged. @return as mc__unit_reduce(). */
+static int reduce_unit(mc__ckpt *ck, const mc_reduce_opts *o,
+                       const mc__plan *plan, size_t i, mc__acc *acc,
+                       mc__unit_result *res, mc__progress *prog,
+                       mc_errinfo *err)
+{
+    const int got = mc__ckpt_resume(ck, plan, i, acc, res, prog, err);
+    if (got)
+        return got < 0 ? got : prog->stop ? 1 : 0;
+    if (!ck)
+        return mc__unit_reduce(plan, &plan->units[i], i, o->per_comm,
+                               o->skip_damaged, acc, res, prog, err);
+    mc__acc ua; /* the unit alone, as its checkpoint stores it */
+    mc__acc_init(&ua);
+    int rc = mc__unit_reduce(plan, &plan->units[i], i, o->per_comm,
+                             o->skip_damaged, &ua, res, prog, err);
+    if (rc == 0) {
+        mc__ckpt_keep(ck, plan, i, &ua, res);
+        rc = mc__acc_merge(acc, &ua);
+        if (rc)
+            mc_errinfo_set(err, rc, o->campaign, -1, -1, "merging a unit");
+    }
+    mc__acc_free(&ua);
+    return rc;
+}
+
+/* --max-memory: what @acc holds now (into @held), plus with @build the
+ * estimate of what building the summary adds, against the limit. */
+static int memory_check(const mc_reduce_opts *o, const mc__acc *acc, int build,
+                        const char *stage, mc__memuse *held, mc_errinfo *err)
+{
+    if (!o->max_memory)
+        return 0;
+    memset(held, 0, sizeof *held);
+    mc__memuse_add_acc(held, acc);
+    const uint64_t extra = build ? mc__memuse_build(acc) : 0;
+    return mc__memuse_check(o->max_memory, held->bytes + extra, held, stage,
+                            o->campaign, err);
 }
 
 /* Rank 0: build the model, stamp the elapsed time and write it. */
@@ -108,6 +197,7 @@ static int finish(MPI_Comm comm, const mc_reduce_opts *o, const mc__plan *plan,
     out->records = s->meta.records_read;
     out->rejected = s->meta.records_rejected;
     out->bytes = s->meta.bytes_read;
+    remove_leftovers(o);
     rc = write_summary(s, o->output, o->force, err);
     out->elapsed_s = MPI_Wtime() - t0;
     mc_summary_free(s);
@@ -136,6 +226,8 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
     mc__acc_init(&acc);
     mc__unit_result *results = NULL;
     size_t nresults = 0;
+    mc__ckpt *ck = NULL;
+    mc__memuse held = {0, 0, 0, 0, 0}; /* what acc holds, for --max-memory */
     int rc = 0;
 
     /* Refuse an existing output, or one that cannot be created, before
@@ -155,6 +247,11 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
         else if (access(dir, W_OK) != 0)
             rc = mc_errinfo_set(err, MC_EOPEN, o->output, -1, -1,
                                 "its directory is not writable");
+        else if (o->checkpoint)
+            rc = mc__ckpt_plan_build(o->campaign, np, o->skip_damaged,
+                                     o->checkpoint_unit ? o->checkpoint_unit
+                                                        : MC__CKPT_DEFAULT_UNIT,
+                                     &plan, err);
         else
             rc = mc__plan_build(o->campaign, np, o->skip_damaged, &plan, err);
     }
@@ -164,6 +261,11 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
     if (rc)
         mc_errinfo_set(err, rc, o->campaign, -1, -1, "cannot share the plan");
     if ((rc = mc__agree(comm, rc, err)) != 0)
+        goto out;
+    if (o->checkpoint &&
+        (rc = mc__ckpt_open(comm, o->checkpoint, &plan, o->per_comm,
+                            o->skip_damaged, o->note, o->note_ud, &ck, err)) !=
+            0)
         goto out;
 
     res->units = plan.nunits;
@@ -183,6 +285,8 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
     const int prog_open = rc == 0;
     prog.cb = me == 0 ? o->progress : NULL;
     prog.ud = o->progress_ud;
+    prog.mem_limit = o->max_memory;
+    prog.mem_base = &held;
     if (rc)
         mc_errinfo_set(err, rc, o->campaign, -1, -1,
                        "cannot create the progress window");
@@ -192,10 +296,10 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
     for (size_t i = 0; i < plan.nunits && !rc; i++) {
         if (plan.units[i].owner != me)
             continue;
-        rc = mc__unit_reduce(&plan, &plan.units[i], i, o->per_comm,
-                             o->skip_damaged, &acc, &results[nresults], &prog,
-                             err);
+        rc = reduce_unit(ck, o, &plan, i, &acc, &results[nresults], &prog, err);
         nresults++;
+        if (!rc)
+            rc = memory_check(o, &acc, 0, "reading", &held, err);
         if (rc < 0)
             mc__progress_add(&prog, 0, 1, 1);
     }
@@ -208,10 +312,13 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
     if (me == 0 && o->progress)
         o->progress(o->progress_ud, plan.total_bytes, plan.total_bytes,
                     MPI_Wtime() - t0, 1);
+    res->resumed_units = ck ? mc__ckpt_report(ck, comm) : 0;
 
     rc = mc__merge_hists(comm, &acc);
     if (rc)
         mc_errinfo_set(err, rc, o->output, -1, -1, "merging histograms");
+    if (!rc)
+        rc = memory_check(o, &acc, 0, "merging", &held, err);
     if ((rc = mc__agree(comm, rc, err)) != 0)
         goto out;
     rc = mc__gather_tables(comm, &acc, &results, &nresults);
@@ -220,8 +327,12 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
     if ((rc = mc__agree(comm, rc, err)) != 0)
         goto out;
     if (me == 0)
+        rc = memory_check(o, &acc, 1, "building the summary", &held, err);
+    if (me == 0 && !rc)
         rc = finish(comm, o, &plan, &acc, results, nresults, t0, res, err);
     rc = mc__agree(comm, rc, err);
+    if (!rc && me == 0)
+        mc__ckpt_finish(ck, &plan, o->output);
     if (!rc) {
         uint64_t v[4] = {res->files, res->records, res->rejected, res->bytes};
         double el = res->elapsed_s;
@@ -237,6 +348,7 @@ out:
     for (size_t i = 0; i < nresults; i++)
         mc__unit_result_free(&results[i]);
     free(results);
+    mc__ckpt_free(ck);
     mc__acc_free(&acc);
     mc__plan_free(&plan);
     return rc;

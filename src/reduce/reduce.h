@@ -26,21 +26,35 @@ typedef struct mc_reduce_opts {
     mc_reduce_progress_fn progress; /* may be NULL */
     void *progress_ud;
     double progress_interval_s; /* seconds between progress calls */
+    /* Resumable runs: one checkpoint file per finished unit of work in this
+     * directory (created when missing; every rank must see it), NULL for
+     * none. */
+    const char *checkpoint;
+    uint64_t checkpoint_unit; /* bytes per unit then; 0 = 64 MiB */
+    /* Bytes the accumulators of one rank may hold; 0 = no limit. */
+    uint64_t max_memory;
+    /* Called with one line about checkpoints or files left by interrupted
+     * runs: level 0 = warning (on the rank that has it), 1 = note (rank
+     * 0). May be NULL. */
+    void (*note)(void *ud, int level, const char *msg);
+    void *note_ud;
 } mc_reduce_opts;
 
 /* Totals of a finished run, valid on every rank. */
 typedef struct mc_reduce_result {
     uint64_t files;
-    uint64_t records;     /* records counted */
-    uint64_t rejected;    /* records skipped or invalid (with skip_damaged) */
-    uint64_t bytes;       /* trace bytes read */
-    uint64_t units;       /* units of work in the plan */
-    uint64_t split_files; /* files split over several units */
+    uint64_t records;       /* records counted */
+    uint64_t rejected;      /* records skipped or invalid (with skip_damaged) */
+    uint64_t bytes;         /* trace bytes read */
+    uint64_t units;         /* units of work in the plan */
+    uint64_t split_files;   /* files split over several units */
+    uint64_t resumed_units; /* units taken from the checkpoint */
     double elapsed_s;
 } mc_reduce_result;
 
 /*! mc_reduce_opts_init() : no label, no per-communicator populations, stop
- *  at damage, never overwrite, no progress. */
+ *  at damage, never overwrite, no progress, no checkpoint, no memory limit.
+ */
 void mc_reduce_opts_init(mc_reduce_opts *o);
 
 /*! mc_reduce_run() :

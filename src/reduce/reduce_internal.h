@@ -131,6 +131,12 @@ typedef struct mc__progress {
     int stop;           /* another rank reported an error */
     void (*cb)(void *, uint64_t, uint64_t, double, int);
     void *ud;
+    /* --max-memory (memlimit.h): the limit (0 = none), what the rank holds
+     * besides the unit being read, and the records read since the last
+     * look; set after mc__progress_open. */
+    uint64_t mem_limit;
+    const struct mc__memuse *mem_base;
+    uint64_t mem_unchecked;
 } mc__progress;
 
 int mc__progress_open(mc__progress *p, MPI_Comm comm, uint64_t total,
