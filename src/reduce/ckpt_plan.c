@@ -71,51 +71,6 @@ static int cut_file(const mc__plan *p, uint32_t fi, uint64_t stride,
     return rc;
 }
 
-/* ---- assignment: largest unit first onto the least-loaded rank ---------- */
-
-static const mc__unit *order_units; /* qsort context: rank 0, one thread */
-
-static int cmp_size(const void *a, const void *b)
-{
-    const mc__unit *x = &order_units[*(const size_t *)a];
-    const mc__unit *y = &order_units[*(const size_t *)b];
-    if (x->bytes != y->bytes)
-        return x->bytes > y->bytes ? -1 : 1;
-    if (x->file != y->file)
-        return x->file < y->file ? -1 : 1;
-    return (x->first_block > y->first_block) -
-           (x->first_block < y->first_block);
-}
-
-/* Ties go to the lower rank, so the assignment depends only on the units
- * and P. The least-loaded rank is found by a scan: P is at most a few
- * thousand and this runs once. */
-static int assign(mc__unit *u, size_t n, int nranks)
-{
-    size_t *order = malloc((n ? n : 1) * sizeof *order);
-    uint64_t *load = calloc((size_t)nranks, sizeof *load);
-    if (!order || !load) {
-        free(order);
-        free(load);
-        return MC_ENOMEM;
-    }
-    for (size_t i = 0; i < n; i++)
-        order[i] = i;
-    order_units = u;
-    qsort(order, n, sizeof *order, cmp_size);
-    for (size_t i = 0; i < n; i++) {
-        int best = 0;
-        for (int r = 1; r < nranks; r++)
-            if (load[r] < load[best])
-                best = r;
-        u[order[i]].owner = best;
-        load[best] += u[order[i]].bytes ? u[order[i]].bytes : 1;
-    }
-    free(order);
-    free(load);
-    return 0;
-}
-
 int mc__ckpt_plan_build(const char *dir, int nranks, int skip_damaged,
                         uint64_t unit_bytes, mc__plan *plan, mc_errinfo *err)
 {
@@ -131,8 +86,6 @@ int mc__ckpt_plan_build(const char *dir, int nranks, int skip_damaged,
     size_t n = 0, cap = 0;
     for (size_t i = 0; i < plan->nunits && !rc; i++)
         rc = cut_file(plan, plan->units[i].file, unit_bytes, &v, &n, &cap);
-    if (!rc)
-        rc = assign(v, n, nranks);
     if (rc) {
         free(v);
         mc__plan_free(plan);
@@ -141,5 +94,10 @@ int mc__ckpt_plan_build(const char *dir, int nranks, int skip_damaged,
     free(plan->units);
     plan->units = v;
     plan->nunits = n;
+    rc = mc__plan_assign(plan, nranks);
+    if (rc) {
+        mc__plan_free(plan);
+        return mc_errinfo_set(err, rc, dir, -1, -1, "plan");
+    }
     return 0;
 }

@@ -193,7 +193,7 @@ static int cmp_lpt(const void *a, const void *b)
 
 /* Largest unit first onto the least-loaded rank; ties go to the lower
  * rank, so the plan depends only on the campaign and P. */
-static int assign_lpt(mc__plan *p, int nranks)
+int mc__plan_assign(mc__plan *p, int nranks)
 {
     size_t *order = malloc((p->nunits ? p->nunits : 1) * sizeof *order);
     slot *h = malloc((size_t)nranks * sizeof *h);
@@ -370,7 +370,7 @@ int mc__plan_build(const char *dir, int nranks, int skip_damaged,
         if (rc)
             mc_errinfo_set(err, rc, dir, -1, -1, "plan");
     }
-    if (!rc && assign_lpt(plan, nranks) != 0)
+    if (!rc && mc__plan_assign(plan, nranks) != 0)
         rc = mc_errinfo_set(err, MC_ENOMEM, dir, -1, -1, "plan");
 out:
     for (size_t i = 0; i < n; i++)

@@ -61,6 +61,11 @@ int mc__plan_build(const char *dir, int nranks, int skip_damaged,
  * MC_ENOMEM / MC_ELIMIT on the calling rank (agree afterwards). */
 int mc__plan_bcast(MPI_Comm comm, mc__plan *plan);
 
+/* Set every unit's owner: largest unit (by bytes) first onto the least
+ * loaded of @nranks ranks, ties to the lower rank (LPT). @return 0 or
+ * MC_ENOMEM. */
+int mc__plan_assign(mc__plan *plan, int nranks);
+
 void mc__plan_free(mc__plan *plan);
 
 /* ---- accumulators (accum.c) --------------------------------------------- */
