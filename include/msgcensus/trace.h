@@ -241,4 +241,14 @@ typedef struct mc_trace_check {
 MC_API int mc_trace_verify(const char *path, mc_trace_check *out,
                            mc_errinfo *err);
 
+/*! mc_trace_block_header_at() :
+ *  Decode and check only the 40-byte block header at @offset (magic, header
+ *  checksum, limits), without reading the payload: what a reader can still
+ *  learn of a block whose payload is cut short or damaged, e.g. how many
+ *  records it held. @block_index is used in error messages only.
+ *  @return 0 and *out, or MC_ETRUNC / MC_EBLOCK / MC_EIO with @err. */
+MC_API int mc_trace_block_header_at(mc_trace_reader *r, uint64_t offset,
+                                    uint64_t block_index, mc_block_info *out,
+                                    mc_errinfo *err);
+
 #endif /* MSGCENSUS_TRACE_H */

@@ -666,3 +666,28 @@ void mc_trace_current_block(const mc_trace_reader *r, uint64_t *block_index,
     if (offset)
         *offset = r->cur_off;
 }
+
+int mc_trace_block_header_at(mc_trace_reader *r, uint64_t offset,
+                             uint64_t block_index, mc_block_info *out,
+                             mc_errinfo *err)
+{
+    if (!r || !out)
+        return mc_errinfo_set(err, MC_EINVAL, NULL, -1, -1, "missing argument");
+    if (offset > r->file_size || r->file_size - offset < MC_BLOCK_HEADER_SIZE)
+        return mc_errinfo_set(err, MC_ETRUNC, r->path, (int64_t)block_index,
+                              (int64_t)offset, "block header cut short");
+    unsigned char raw[MC_BLOCK_HEADER_SIZE];
+    int rc = read_at(r, raw, sizeof raw, offset, (int64_t)block_index, err);
+    if (rc)
+        return rc;
+    mc__block_header bh;
+    rc = mc__block_header_decode(raw, &bh, r->path, (int64_t)block_index,
+                                 (int64_t)offset, err);
+    if (rc)
+        return rc;
+    out->offset = offset;
+    out->nrecords = bh.nrecords;
+    out->stored_len = bh.stored_len;
+    out->seq = bh.seq;
+    return 0;
+}

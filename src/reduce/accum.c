@@ -404,8 +404,18 @@ static int resync(mc_trace_reader *r, uint64_t bad, mc__unit_result *res,
         res->tail_lost = 1;
         return 0;
     }
-    if (bad < nb)
+    if (bad < nb) {
         res->skipped_records += b[bad].nrecords;
+    } else {
+        /* The damaged block is not in the index (its payload is cut short,
+         * so the walk stopped there): its header, if intact, still says how
+         * many records were lost with it. */
+        uint64_t idx = 0, off = 0;
+        mc_block_info bi;
+        mc_trace_current_block(r, &idx, &off);
+        if (idx == bad && mc_trace_block_header_at(r, off, idx, &bi, &e) == 0)
+            res->skipped_records += bi.nrecords;
+    }
     if (bad + 1 < nb) {
         if (mc_trace_seek_block(r, &b[bad + 1], bad + 1, err) != 0) {
             res->tail_lost = 1;

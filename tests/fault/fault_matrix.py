@@ -215,7 +215,7 @@ CASES = [
                  r"verify: 3 files ok, 1 damaged, 1 campaign problems; 9 "
                  r"blocks, 120 records"),
          reduce=(1, V + r": block 1 at offset {b1}: file truncated"),
-         skip=({VICTIM: ["--records", str(BLOCK)]}, None, 1,
+         skip=({VICTIM: ["--records", str(BLOCK)]}, BLOCK, 1,
                r"^skipped: .*1 block")),
     dict(name="missing-footer",
          fault="rank 1 written without footer (last block flushed, as a "
