@@ -5,7 +5,7 @@
 set -euo pipefail
 src=$(cd "$(dirname "$0")/.." && pwd)
 "$src/scripts/deps.sh"
-"$src/scripts/build.sh" "$src/build"
+"$src/scripts/build.sh" "$src/build" -DMC_BUILD_TESTS=OFF
 mc="$src/build/msgcensus"
 demo=${MC_DEMO_DIR:-$src/demo}
 mkdir -p "$demo"
