@@ -42,6 +42,16 @@ int mc_cli_usage_error(const char *cmd, const char *fmt, ...)
 #endif
     ;
 
+struct mc_summary;
+
+/*! mc_cli_read_summaries() : read the @n summaries named in @files. On the
+ *  first failure prints its one-line message, frees what was read and
+ *  returns NULL; otherwise an array for mc_cli_free_summaries(). */
+struct mc_summary **mc_cli_read_summaries(const char *const *files, size_t n);
+
+/*! mc_cli_free_summaries() : free the array and every summary; NULL ok. */
+void mc_cli_free_summaries(struct mc_summary **runs, size_t n);
+
 /*! mc_parse_u64() : a decimal number with an optional unit suffix: K, M, G, T
  *  (powers of 1000) or KiB, MiB, GiB, TiB (powers of 1024); "k" is accepted
  *  for K. Overflow and trailing junk are errors.

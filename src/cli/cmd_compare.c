@@ -73,35 +73,21 @@ int mc_cmd_compare(int argc, char **argv)
         return mc_cli_usage_error(argv[0], "no summaries given");
     }
 
-    int status = MC_EXIT_OK;
-    mc_summary **runs = calloc(n, sizeof *runs);
+    mc_summary **runs = mc_cli_read_summaries(files, n);
     if (!runs) {
-        mc_cli_error(NULL, MC_ENOMEM, NULL);
         free(files);
         return MC_EXIT_FAIL;
     }
-    for (size_t r = 0; r < n && status == MC_EXIT_OK; r++) {
-        mc_errinfo err;
-        mc_errinfo_clear(&err);
-        const int rc = mc_summary_read(files[r], &runs[r], &err);
-        if (rc != 0) {
-            mc_cli_error(&err, rc, files[r]);
-            status = MC_EXIT_FAIL;
-        }
+    int status = MC_EXIT_OK;
+    mc_errinfo err;
+    mc_errinfo_clear(&err);
+    const int rc = mc_study_compare(stdout, (const mc_summary *const *)runs,
+                                    files, n, pop, fmt, &err);
+    if (rc != 0) {
+        mc_cli_error(&err, rc, NULL);
+        status = MC_EXIT_FAIL;
     }
-    if (status == MC_EXIT_OK) {
-        mc_errinfo err;
-        mc_errinfo_clear(&err);
-        const int rc = mc_study_compare(stdout, (const mc_summary *const *)runs,
-                                        files, n, pop, fmt, &err);
-        if (rc != 0) {
-            mc_cli_error(&err, rc, NULL);
-            status = MC_EXIT_FAIL;
-        }
-    }
-    for (size_t r = 0; r < n; r++)
-        mc_summary_free(runs[r]);
-    free(runs);
+    mc_cli_free_summaries(runs, n);
     free(files);
     return status;
 }

@@ -171,43 +171,28 @@ static int plot_one(const char *file, const char *dir, const char *pop,
 static int plot_overlay(char **files, size_t n, const char *out,
                         const char *pop)
 {
-    mc_summary **runs = calloc(n, sizeof *runs);
-    int status = MC_EXIT_OK;
-    if (!runs) {
-        mc_cli_error(NULL, MC_ENOMEM, NULL);
+    mc_summary **runs = mc_cli_read_summaries((const char *const *)files, n);
+    if (!runs)
         return MC_EXIT_FAIL;
-    }
-    for (size_t r = 0; r < n && status == MC_EXIT_OK; r++) {
+    int status = MC_EXIT_OK;
+    mc_sbuf b;
+    mc_sbuf_init(&b);
+    const int rc = mc_study_fig_overlay((const mc_summary *const *)runs, n,
+                                        pop ? pop : "all", &b);
+    if (rc == 0) {
+        status = write_figure(out, &b);
+    } else {
         mc_errinfo err;
         mc_errinfo_clear(&err);
-        const int rc = mc_summary_read(files[r], &runs[r], &err);
-        if (rc != 0) {
-            mc_cli_error(&err, rc, files[r]);
-            status = MC_EXIT_FAIL;
-        }
+        if (rc == MC_ENODATA)
+            mc_errinfo_set(&err, rc, NULL, -1, -1,
+                           "no run has a non-empty population '%s'",
+                           pop ? pop : "all");
+        mc_cli_error(&err, rc, NULL);
+        status = MC_EXIT_FAIL;
     }
-    if (status == MC_EXIT_OK) {
-        mc_sbuf b;
-        mc_sbuf_init(&b);
-        const int rc = mc_study_fig_overlay((const mc_summary *const *)runs, n,
-                                            pop ? pop : "all", &b);
-        if (rc == 0) {
-            status = write_figure(out, &b);
-        } else {
-            mc_errinfo err;
-            mc_errinfo_clear(&err);
-            if (rc == MC_ENODATA)
-                mc_errinfo_set(&err, rc, NULL, -1, -1,
-                               "no run has a non-empty population '%s'",
-                               pop ? pop : "all");
-            mc_cli_error(&err, rc, NULL);
-            status = MC_EXIT_FAIL;
-        }
-        mc_sbuf_free(&b);
-    }
-    for (size_t r = 0; r < n; r++)
-        mc_summary_free(runs[r]);
-    free(runs);
+    mc_sbuf_free(&b);
+    mc_cli_free_summaries(runs, n);
     return status;
 }
 
