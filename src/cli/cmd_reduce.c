@@ -46,7 +46,7 @@ static void usage(FILE *out)
             "                     rank would hold more (e.g. 2GiB); "
             "default: no limit\n"
             "  -q, --quiet        no progress and no result line\n"
-            "  -v, --verbose      more detail in the result line\n"
+            "  -v, --verbose      more detail in the result line; phase times\n"
             "  -h, --help         this help\n\n"
             "Exit status: 0 done, 1 the reduction failed (nothing is written), "
             "2 usage.\n");
@@ -210,7 +210,7 @@ int mc_cmd_reduce(int argc, char **argv)
             char b[32], r[32];
             const double rate =
                 res.elapsed_s > 0 ? (double)res.bytes / res.elapsed_s : 0;
-            fprintf(stderr, "reduce: %llu records, %s in %.2f s (%s/s) -> %s\n",
+            fprintf(stderr, "reduce: %llu records, %s in %.3f s (%s/s) -> %s\n",
                     (unsigned long long)res.records,
                     mc_format_bytes((double)res.bytes, b, sizeof b),
                     res.elapsed_s, mc_format_bytes(rate, r, sizeof r),
@@ -224,6 +224,11 @@ int mc_cmd_reduce(int argc, char **argv)
                         (unsigned long long)res.rejected, np,
                         (unsigned long long)res.units,
                         (unsigned long long)res.split_files);
+            if (mc_cli_verbosity >= 2)
+                fprintf(stderr,
+                        "reduce: phases: plan %.3f s, read %.3f s, merge "
+                        "%.3f s, summary %.3f s\n",
+                        res.plan_s, res.read_s, res.merge_s, res.summary_s);
         }
     }
     MPI_Finalize();

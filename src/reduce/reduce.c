@@ -200,6 +200,7 @@ static int finish(MPI_Comm comm, const mc_reduce_opts *o, const mc__plan *plan,
     remove_leftovers(o);
     rc = write_summary(s, o->output, o->force, err);
     out->elapsed_s = MPI_Wtime() - t0;
+    out->summary_s = out->elapsed_s - out->plan_s - out->read_s - out->merge_s;
     mc_summary_free(s);
     return rc;
 }
@@ -262,6 +263,8 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
         mc_errinfo_set(err, rc, o->campaign, -1, -1, "cannot share the plan");
     if ((rc = mc__agree(comm, rc, err)) != 0)
         goto out;
+    const double t_planned = MPI_Wtime();
+    res->plan_s = t_planned - t0;
     if (o->checkpoint &&
         (rc = mc__ckpt_open(comm, o->checkpoint, &plan, o->per_comm,
                             o->skip_damaged, o->note, o->note_ud, &ck, err)) !=
@@ -309,6 +312,8 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
         mc__progress_close(&prog);
     if ((rc = mc__agree(comm, rc, err)) != 0)
         goto out;
+    const double t_read = MPI_Wtime();
+    res->read_s = t_read - t_planned;
     if (me == 0 && o->progress)
         o->progress(o->progress_ud, plan.total_bytes, plan.total_bytes,
                     MPI_Wtime() - t0, 1);
@@ -326,6 +331,7 @@ int mc_reduce_run(MPI_Comm comm, const mc_reduce_opts *o, mc_reduce_result *res,
         mc_errinfo_set(err, rc, o->output, -1, -1, "gathering tables");
     if ((rc = mc__agree(comm, rc, err)) != 0)
         goto out;
+    res->merge_s = MPI_Wtime() - t_read;
     if (me == 0)
         rc = memory_check(o, &acc, 1, "building the summary", &held, err);
     if (me == 0 && !rc)

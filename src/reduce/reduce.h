@@ -50,6 +50,11 @@ typedef struct mc_reduce_result {
     uint64_t split_files;   /* files split over several units */
     uint64_t resumed_units; /* units taken from the checkpoint */
     double elapsed_s;
+    /* Wall seconds of each phase on rank 0, from the start of the run:
+     * plan (scan + broadcast), read (this rank's units and the wait for
+     * the others), merge (histogram tree + table gather), summary
+     * (statistics + HDF5 write + rename). They add up to elapsed_s. */
+    double plan_s, read_s, merge_s, summary_s;
 } mc_reduce_result;
 
 /*! mc_reduce_opts_init() : no label, no per-communicator populations, stop

@@ -29,6 +29,14 @@ mkdir camp && "$MC_CLI" synth -q -o camp --ranks 2 --steps 2 || fail "synth"
 expect 1 "$MC_CLI" reduce camp -o no/such/dir/x.h5 --quiet
 grep -q "^msgcensus: no/such/dir/x.h5: cannot open file (its directory is not writable)" err.txt ||
     fail "unwritable output directory: $(cat err.txt)"
+# --verbose adds the phase times; they add up to the elapsed time of the
+# result line (each printed to 1 ms).
+expect 0 "$MC_CLI" reduce camp -o v.h5 --verbose
+line=$(grep '^reduce: phases: ' err.txt) || fail "reduce --verbose: no phase line: $(cat err.txt)"
+total=$(sed -n 's/^reduce: .* in \([0-9.]*\) s .*/\1/p' err.txt)
+sum=$(echo "$line" | grep -o '[0-9.]* s' | awk '{ s += $1 } END { print s }')
+awk -v a="$total" -v b="$sum" 'BEGIN { d = a - b; exit !(d < 0.0025 && d > -0.0025) }' ||
+    fail "phases add up to $sum s, the result line says $total s"
 expect 0 "$MC_CLI" report --help
 grep -q '^usage: msgcensus report' out.txt || fail "report --help"
 expect 2 "$MC_CLI" report
