@@ -46,7 +46,7 @@ typedef struct mc_summary_source {
     uint64_t blocks;
     uint64_t skipped_blocks;
     uint64_t skipped_records;
-    uint64_t checksum; /* XXH64 (seed 0) of the sequence of the raw
+    uint64_t checksum; /* XXH64 (seed 0) of the sequence of the stored
                           payload checksums of the blocks read, each as
                           8 little-endian bytes, in block order; a split
                           file can be checked this way, see

@@ -1,4 +1,5 @@
-/* trace.h - trace format v1: records, file header, block writer and reader.
+/* trace.h - trace format (2.0, reads 1.x): records, file header, block
+ * writer and reader.
  *
  * The byte layout is specified in docs/trace-format.md; that document is the
  * reference and the constants below follow it. */
@@ -10,19 +11,23 @@
 
 #include "common.h"
 #include "error.h"
+#include "ops.h" /* MC_OP_MAX_CODE, MC_DIR_RECV */
 
 /* ---- format constants (docs/trace-format.md) ---------------------------- */
 
 #define MC_TRACE_MAGIC "MCTRACE\x1a" /* 8 bytes at offset 0 */
 #define MC_TRACE_MAGIC_LEN 8
-#define MC_TRACE_VERSION_MAJOR 1 /* a reader rejects any other major */
-#define MC_TRACE_VERSION_MINOR 0 /* a reader accepts any minor of its major */
+#define MC_TRACE_VERSION_MAJOR 2 /* written by default */
+#define MC_TRACE_VERSION_MINOR 0 /* a reader accepts any minor of its majors   \
+                                  */
+#define MC_TRACE_OLDEST_MAJOR                                                  \
+    1 /* read: majors OLDEST..MAJOR, others rejected */
 #define MC_TRACE_ENDIAN_MARK 0x01020304u
-#define MC_TRACE_HEADER_SIZE 128u  /* file header, v1.0 */
+#define MC_TRACE_HEADER_SIZE 128u  /* file header, 1.0 and 2.0 */
 #define MC_TRACE_HOST_LEN 64u      /* host name field, NUL padded */
 #define MC_BLOCK_MAGIC 0x4b42434du /* "MCBK" little-endian */
 #define MC_BLOCK_HEADER_SIZE 40u
-#define MC_RECORD_SIZE 48u           /* record size of v1.0 */
+#define MC_RECORD_SIZE 48u           /* record size of 1.0 and 2.0 */
 #define MC_INDEX_MAGIC 0x5849434du   /* "MCIX" little-endian */
 #define MC_TRAILER_MAGIC 0x444e434du /* "MCND" little-endian */
 #define MC_TRAILER_SIZE 16u
@@ -39,14 +44,14 @@
 #define MC_RF_POSTED_SIZE 0x01u /* receive: posted size, actual not known */
 #define MC_RF_IN_PLACE 0x02u    /* collective called with MPI_IN_PLACE */
 #define MC_RF_PER_PEER 0x04u    /* one of several per-peer records of a call */
-#define MC_RF_KNOWN_MASK 0x07u  /* reader rejects other bits in v1.0 */
+#define MC_RF_KNOWN_MASK 0x07u  /* reader rejects other bits (1.0, 2.0) */
 
 typedef enum mc_codec { MC_CODEC_NONE = 0, MC_CODEC_ZSTD = 1 } mc_codec;
 
 /* ---- records ------------------------------------------------------------ */
 
 /* One MPI call (or one direction of one call). On little-endian hosts this
- * struct has exactly the on-disk layout of a v1.0 record (48 bytes, no
+ * struct has exactly the on-disk layout of a 1.0/2.0 record (48 bytes, no
  * padding), which lets the decoder copy records without per-field work. */
 typedef struct mc_record {
     uint64_t bytes;      /* payload bytes (count x MPI_Type_size) */
@@ -59,7 +64,7 @@ typedef struct mc_record {
     uint16_t op;         /* mc_op code */
     uint8_t dir;         /* mc_dir: NONE, SEND or RECV */
     uint8_t flags;       /* MC_RF_* bits */
-    uint32_t reserved;   /* zero in v1.0 */
+    uint32_t reserved;   /* zero in 1.0 and 2.0 */
 } mc_record;
 
 /* ---- file header -------------------------------------------------------- */
@@ -67,7 +72,7 @@ typedef struct mc_record {
 typedef struct mc_trace_header {
     uint16_t version_major;
     uint16_t version_minor;
-    uint32_t flags;          /* zero in v1.0 */
+    uint32_t flags;          /* zero in 1.0 and 2.0 */
     int32_t app_rank;        /* world rank of the traced process */
     int32_t app_size;        /* world size of the traced job */
     uint64_t clock_res_ps;   /* clock resolution in picoseconds */
@@ -76,8 +81,8 @@ typedef struct mc_trace_header {
     char host[MC_TRACE_HOST_LEN + 1]; /* NUL-terminated host name */
 } mc_trace_header;
 
-/*! mc_trace_header_init() : a v1.0 header for @rank of @size, host and times
- *  left empty/zero, clock resolution 1000 ps. */
+/*! mc_trace_header_init() : a header of the current version for @rank of @size,
+ * host and times left empty/zero, clock resolution 1000 ps. */
 MC_API void mc_trace_header_init(mc_trace_header *hdr, int32_t rank,
                                  int32_t size);
 
@@ -102,6 +107,28 @@ MC_API void mc_record_decode(const unsigned char in[MC_RECORD_SIZE],
  *  @return 0 or MC_ERECORD with the reason in err->detail. */
 MC_API int mc_record_check(const mc_record *rec, mc_errinfo *err);
 
+/*! mc_op_known_table() : MC_OP_MAX_CODE + 1 flags, 1 for each op code of
+ *  the operation table (MC_OPS_MAP). */
+MC_API const unsigned char *mc_op_known_table(void);
+
+/*! mc_record_valid() : the test of mc_record_check() without the reason,
+ *  inline for loops over many records. @known is mc_op_known_table().
+ *  @return 1 when @rec is valid. */
+static inline int mc_record_valid(const mc_record *rec,
+                                  const unsigned char *known)
+{
+    return !((rec->op > MC_OP_MAX_CODE || !known[rec->op]) |
+             (rec->dir > MC_DIR_RECV) |
+             ((rec->flags & ~MC_RF_KNOWN_MASK) != 0) |
+             (rec->t_end_ns < rec->t_start_ns) | (rec->reserved != 0));
+}
+
+/*! mc_trace_payload_checksum() : the payload checksum of format major
+ *  @major over the raw (uncompressed) records: XXH64 (seed 0) in 1.x,
+ *  XXH3_64bits (seed 0, default secret) in 2.x. 0 for any other major. */
+MC_API uint64_t mc_trace_payload_checksum(unsigned major, const void *raw,
+                                          size_t len);
+
 /* ---- writer ------------------------------------------------------------- */
 
 typedef struct mc_writer_opts {
@@ -110,6 +137,7 @@ typedef struct mc_writer_opts {
     int zstd_level;         /* 0 = zstd's default */
     int write_footer;       /* 1 (default via mc_writer_opts_init) = index */
     int fsync_on_close;     /* 1 = fsync before close returns */
+    unsigned format_major;  /* 0 = MC_TRACE_VERSION_MAJOR; 1 writes 1.0 */
 } mc_writer_opts;
 
 typedef struct mc_trace_writer mc_trace_writer;
@@ -199,8 +227,8 @@ MC_API int mc_trace_seek_block(mc_trace_reader *r, const mc_block_info *b,
                                uint64_t block_index, mc_errinfo *err);
 
 /*! mc_trace_next_block() :
- *  Read, verify (header check, xxHash64 of the raw bytes), decode and return
- *  the next block. *recs points into the reader's buffer, valid until the
+ *  Read, verify (header check, payload checksum of the raw bytes), decode and
+ * return the next block. *recs points into the reader's buffer, valid until the
  *  next call. Records are not semantically checked here; see
  *  mc_record_check().
  *  @return 1 when a block was returned, 0 at the clean end of the blocks
@@ -215,6 +243,11 @@ MC_API int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
 MC_API void mc_trace_current_block(const mc_trace_reader *r,
                                    uint64_t *block_index, uint64_t *offset);
 
+/*! mc_trace_current_checksum() : the payload checksum of the block
+ *  returned last, as stored in its header and verified against the
+ *  records (mc_trace_payload_checksum() of the file's major). */
+MC_API uint64_t mc_trace_current_checksum(const mc_trace_reader *r);
+
 /* ---- whole-file check --------------------------------------------------- */
 
 /* What mc_trace_verify() found in one file. */
@@ -225,7 +258,7 @@ typedef struct mc_trace_check {
     uint64_t file_bytes;    /* size of the file */
     uint64_t blocks;        /* blocks read and verified */
     uint64_t records;       /* records in those blocks */
-    uint64_t raw_bytes;     /* records x 48: the v1.0 record bytes read */
+    uint64_t raw_bytes;     /* records x 48: the 48-byte record bytes read */
 } mc_trace_check;
 
 /*! mc_trace_verify() :

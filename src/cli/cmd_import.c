@@ -24,6 +24,8 @@ static void usage(FILE *out)
             "  --host H              host name (else '# host=', else empty)\n"
             "  --zstd                compress blocks with zstd\n"
             "  --block-records N     records per block (default %u)\n"
+            "  --trace-format N      write format N.0: 2 (default), or 1 for\n"
+            "                        older readers\n"
             "  -f, --force           replace OUT.mct if it exists\n"
             "  -q, --quiet           print errors only\n"
             "  -v, --verbose         say more\n"
@@ -83,6 +85,15 @@ int mc_cmd_import(int argc, char **argv)
                                           MC_TRACE_HOST_LEN);
         } else if (!strcmp(a, "--zstd")) {
             wo.codec = MC_CODEC_ZSTD;
+        } else if (!strcmp(a, "--trace-format")) {
+            uint64_t v;
+            if (!has_arg || mc_parse_u64(argv[i + 1], &v) ||
+                v < MC_TRACE_OLDEST_MAJOR || v > MC_TRACE_VERSION_MAJOR)
+                return mc_cli_usage_error(cmd, "--trace-format needs %d or %d",
+                                          MC_TRACE_OLDEST_MAJOR,
+                                          MC_TRACE_VERSION_MAJOR);
+            wo.format_major = (unsigned)v;
+            i++;
         } else if (!strcmp(a, "--block-records")) {
             uint64_t v;
             if (!has_arg || mc_parse_u64(argv[i + 1], &v) || v == 0 ||

@@ -39,6 +39,8 @@ static void help(void)
         "  --uneven              skewed extra local work: very uneven files\n"
         "  --zstd                compress blocks with zstd\n"
         "  --block-records N     records per block (default 16384)\n"
+        "  --trace-format N      write format N.0: 2 (default), or 1 for\n"
+        "                        older readers\n"
         "  --no-footer           leave out the footer index, as a crash would\n"
         "  --threads N           rank files written at once (default 1, or 2\n"
         "                        with --zstd)\n"
@@ -219,6 +221,9 @@ int mc_cmd_synth(int argc, char **argv)
         } else if (VALUE("--block-records")) {
             NUMBER(1, MC_BLOCK_MAX_RECORDS);
             wo.writer.block_records = (uint32_t)u;
+        } else if (VALUE("--trace-format")) {
+            NUMBER(MC_TRACE_OLDEST_MAJOR, MC_TRACE_VERSION_MAJOR);
+            wo.writer.format_major = (unsigned)u;
         } else if (VALUE("--threads")) {
             NUMBER(1, 64);
             wo.threads = (unsigned)u;

@@ -262,6 +262,7 @@ static int write_description(const mc_synth_params *p, const char *dir,
         "uneven = %s\n"
         "block_records = %u\n"
         "codec = %s\n"
+        "trace_format = %u.0\n"
         "footer = %s\n"
         "files = %llu\n"
         "records = %llu\n"
@@ -274,6 +275,7 @@ static int write_description(const mc_synth_params *p, const char *dir,
         g[0], g[1], g[2], p->periodic ? "yes" : "no", p->uneven ? "yes" : "no",
         wo->block_records ? wo->block_records : MC_BLOCK_DEFAULT_RECORDS,
         wo->codec == MC_CODEC_ZSTD ? "zstd" : "none",
+        wo->format_major ? wo->format_major : MC_TRACE_VERSION_MAJOR,
         wo->write_footer ? "yes" : "no", (unsigned long long)j->files_done,
         (unsigned long long)j->records, (unsigned long long)j->bytes_done);
     if (fclose(f) != 0)

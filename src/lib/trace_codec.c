@@ -1,13 +1,20 @@
 /* trace_codec.c - encode and decode the file header, block headers and records
- * of trace format v1. */
+ * of the trace format (1.x and 2.x). */
 #include "trace_internal.h"
 
 #include <stddef.h> /* offsetof */
 #include <string.h> /* memcpy, memset, strnlen */
 
 #include <msgcensus/ops.h> /* mc_op_valid, MC_DIR_* */
-#include <xxhash.h>        /* XXH32 */
-#include <zstd.h>          /* ZSTD_compressBound */
+#include <xxhash.h>        /* XXH32, XXH64, XXH3_64bits */
+#if defined(__x86_64__) && defined(__has_include)
+#if __has_include(<xxh_x86dispatch.h>)
+/* libxxhash picks SSE2, AVX2 or AVX-512 for XXH3 at run time; the value is
+ * the same whichever it picks. */
+#include <xxh_x86dispatch.h>
+#endif
+#endif
+#include <zstd.h> /* ZSTD_compressBound */
 
 /* The record struct must match the 48-byte on-disk record exactly, so that
  * little-endian hosts can copy whole blocks of records. */
@@ -39,10 +46,10 @@ void mc_trace_header_encode(const mc_trace_header *hdr,
 {
     memset(out, 0, MC_TRACE_HEADER_SIZE);
     memcpy(out, MC_TRACE_MAGIC, MC_TRACE_MAGIC_LEN);
-    /* A writer always writes the version it implements, whatever the
-     * struct says: the byte layout below is that of 1.0. */
-    mc__put16(out + 8, MC_TRACE_VERSION_MAJOR);
-    mc__put16(out + 10, MC_TRACE_VERSION_MINOR);
+    /* A writer writes a version it implements: 1.0 when asked for major 1,
+     * else the current one. Both lay the header out as below. */
+    mc__put16(out + 8, hdr->version_major == 1 ? 1 : MC_TRACE_VERSION_MAJOR);
+    mc__put16(out + 10, hdr->version_major == 1 ? 0 : MC_TRACE_VERSION_MINOR);
     mc__put32(out + 12, MC_TRACE_ENDIAN_MARK);
     mc__put32(out + 16, MC_TRACE_HEADER_SIZE);
     mc__put32(out + 20, hdr->flags);
@@ -77,10 +84,12 @@ int mc_trace_header_decode(const unsigned char *in, size_t len,
     /* The version comes before the checksum: another major may lay out
      * the rest of the header differently. */
     const unsigned major = mc__get16(in + 8), minor = mc__get16(in + 10);
-    if (major != MC_TRACE_VERSION_MAJOR)
+    if (major < MC_TRACE_OLDEST_MAJOR || major > MC_TRACE_VERSION_MAJOR)
         return mc_errinfo_set(err, MC_EVERSION, NULL, -1, 8,
-                              "file is version %u.%u, this reader reads %d.x",
-                              major, minor, MC_TRACE_VERSION_MAJOR);
+                              "file is version %u.%u, this reader reads %d.x "
+                              "to %d.x",
+                              major, minor, MC_TRACE_OLDEST_MAJOR,
+                              MC_TRACE_VERSION_MAJOR);
     if (len < MC_TRACE_HEADER_SIZE)
         return mc_errinfo_set(err, MC_ETRUNC, NULL, -1, (int64_t)len,
                               "file header cut short after %zu of %u bytes",
@@ -148,15 +157,25 @@ static const unsigned char op_known[MC_OP_MAX_CODE + 1] = {
 #undef MC_OP_KNOWN
 };
 
+const unsigned char *mc_op_known_table(void) { return op_known; }
+
+uint64_t mc_trace_payload_checksum(unsigned major, const void *raw, size_t len)
+{
+    switch (major) {
+    case 1:
+        return XXH64(raw, len, 0);
+    case 2:
+        return XXH3_64bits(raw, len);
+    default:
+        return 0;
+    }
+}
+
 int mc_record_check(const mc_record *rec, mc_errinfo *err)
 {
     /* One combined test for the common case of a valid record; the
      * reasons are worked out only when it fails. */
-    const int bad = (rec->op > MC_OP_MAX_CODE || !op_known[rec->op]) |
-                    (rec->dir > MC_DIR_RECV) |
-                    ((rec->flags & ~MC_RF_KNOWN_MASK) != 0) |
-                    (rec->t_end_ns < rec->t_start_ns) | (rec->reserved != 0);
-    if (!bad)
+    if (mc_record_valid(rec, op_known))
         return 0;
     if (!mc_op_valid(rec->op))
         return mc_errinfo_set(err, MC_ERECORD, NULL, -1, -1,
@@ -195,7 +214,7 @@ void mc__block_header_encode(const mc__block_header *bh,
     out[20] = bh->codec;
     out[21] = bh->flags;
     mc__put16(out + 22, bh->record_size);
-    mc__put64(out + 24, bh->raw_xxh64);
+    mc__put64(out + 24, bh->raw_sum);
     mc__put32(out + 32, XXH32(out, 32, 0));
     mc__put32(out + 36, 0);
 }
@@ -212,7 +231,7 @@ int mc__block_header_decode(const unsigned char in[MC_BLOCK_HEADER_SIZE],
     bh->codec = in[20];
     bh->flags = in[21];
     bh->record_size = mc__get16(in + 22);
-    bh->raw_xxh64 = mc__get64(in + 24);
+    bh->raw_sum = mc__get64(in + 24);
     bh->hdr_xxh32 = mc__get32(in + 32);
     bh->reserved = mc__get32(in + 36);
     if (bh->magic != MC_BLOCK_MAGIC)

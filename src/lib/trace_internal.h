@@ -75,7 +75,7 @@ typedef struct mc__block_header {
     uint8_t codec;
     uint8_t flags;
     uint16_t record_size;
-    uint64_t raw_xxh64;
+    uint64_t raw_sum; /* payload checksum: XXH64 (1.x) or XXH3 (2.x) */
     uint32_t hdr_xxh32;
     uint32_t reserved;
 } mc__block_header;

@@ -1,5 +1,5 @@
-/* trace_read.c - the streaming block reader of trace format v1: footer index or
- * block walk, checksums, zstd, range reads. */
+/* trace_read.c - the streaming block reader of the trace format (1.x and
+ * 2.x): footer index or block walk, checksums, zstd, range reads. */
 #include "trace_internal.h"
 
 #include <errno.h>    /* errno, EINTR */
@@ -41,6 +41,7 @@ struct mc_trace_reader {
     /* Streaming position: the next block to read. */
     uint64_t next_off, next_index;
     uint64_t cur_off, cur_index; /* block returned last */
+    uint64_t cur_sum;            /* its verified payload checksum */
 
     /* Footer index, read once. */
     int footer_state;
@@ -620,12 +621,14 @@ int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
                                   k, bh.raw_len);
         raw = r->raw;
     }
-    const uint64_t sum = XXH64(raw, bh.raw_len, 0);
-    if (sum != bh.raw_xxh64)
+    const uint64_t sum =
+        mc_trace_payload_checksum(r->hdr.version_major, raw, bh.raw_len);
+    if (sum != bh.raw_sum)
         return mc_errinfo_set(err, MC_ECHECKSUM, r->path, bi, (int64_t)off,
                               "stored 0x%016llx, computed 0x%016llx",
-                              (unsigned long long)bh.raw_xxh64,
+                              (unsigned long long)bh.raw_sum,
                               (unsigned long long)sum);
+    r->cur_sum = sum;
     const size_t n = bh.nrecords;
 #if MC_HOST_LE
     if (bh.record_size == MC_RECORD_SIZE &&
@@ -665,6 +668,11 @@ void mc_trace_current_block(const mc_trace_reader *r, uint64_t *block_index,
         *block_index = r->cur_index;
     if (offset)
         *offset = r->cur_off;
+}
+
+uint64_t mc_trace_current_checksum(const mc_trace_reader *r)
+{
+    return r->cur_sum;
 }
 
 int mc_trace_block_header_at(mc_trace_reader *r, uint64_t offset,

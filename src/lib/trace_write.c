@@ -1,5 +1,5 @@
-/* trace_write.c - the block writer of trace format v1: bounded buffers,
- * optional zstd, footer index. */
+/* trace_write.c - the block writer of the trace format (2.0, or 1.0 on
+ * request): bounded buffers, optional zstd, footer index. */
 #include "trace_internal.h"
 
 #include <errno.h>  /* errno, EINTR */
@@ -37,6 +37,7 @@ void mc_writer_opts_init(mc_writer_opts *opts)
     opts->zstd_level = 0;
     opts->write_footer = 1;
     opts->fsync_on_close = 0;
+    opts->format_major = MC_TRACE_VERSION_MAJOR;
 }
 
 /* Write all of @len bytes, retrying after signals and short writes. */
@@ -94,6 +95,14 @@ int mc_trace_writer_open(const char *path, const mc_trace_header *hdr,
         return mc_errinfo_set(err, MC_ERANGE, path, -1, -1,
                               "%u records per block, limit %u", o.block_records,
                               MC_BLOCK_MAX_RECORDS);
+    if (o.format_major == 0)
+        o.format_major = MC_TRACE_VERSION_MAJOR;
+    if (o.format_major < MC_TRACE_OLDEST_MAJOR ||
+        o.format_major > MC_TRACE_VERSION_MAJOR)
+        return mc_errinfo_set(err, MC_EINVAL, path, -1, -1,
+                              "cannot write trace format %u (writes %d to %d)",
+                              o.format_major, MC_TRACE_OLDEST_MAJOR,
+                              MC_TRACE_VERSION_MAJOR);
     if (o.codec != MC_CODEC_NONE && o.codec != MC_CODEC_ZSTD)
         return mc_errinfo_set(err, MC_EINVAL, path, -1, -1, "unknown codec %d",
                               (int)o.codec);
@@ -132,7 +141,9 @@ int mc_trace_writer_open(const char *path, const mc_trace_header *hdr,
         goto fail_set;
     }
     unsigned char hbytes[MC_TRACE_HEADER_SIZE];
-    mc_trace_header_encode(hdr, hbytes);
+    mc_trace_header h = *hdr;
+    h.version_major = (uint16_t)o.format_major;
+    mc_trace_header_encode(&h, hbytes);
     rc = write_all(w, hbytes, sizeof hbytes, -1, err);
     if (rc)
         goto fail_set;
@@ -177,7 +188,8 @@ static int write_block(mc_trace_writer *w, mc_errinfo *err)
     bh.nrecords = (uint32_t)w->nbuf;
     bh.raw_len = (uint32_t)raw_len;
     bh.record_size = MC_RECORD_SIZE;
-    bh.raw_xxh64 = XXH64(payload, raw_len, 0);
+    bh.raw_sum =
+        mc_trace_payload_checksum(w->opts.format_major, payload, raw_len);
     unsigned char *out = w->raw;
     if (w->opts.codec == MC_CODEC_ZSTD) {
         const size_t k =

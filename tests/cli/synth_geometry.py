@@ -19,7 +19,7 @@ import numpy as np  # Debian python3-numpy: structured arrays for the records
 
 CLI = os.environ["MC_CLI"]
 
-# Record layout of trace format v1.0 (docs/trace-format.md).
+# Record layout of trace formats 1.0 and 2.0 (docs/trace-format.md).
 REC = np.dtype([("bytes", "<u8"), ("t_start", "<u8"), ("t_end", "<u8"),
                 ("comm", "<u4"), ("comm_size", "<u4"), ("peer", "<i4"),
                 ("tag", "<i4"), ("op", "<u2"), ("dir", "u1"), ("flags", "u1"),

@@ -272,10 +272,10 @@ CASES = [
          skip=({VICTIM: ["--records", "0"]}, 0, 0,
                r"^skipped: not a msgcensus trace")),
     dict(name="unknown-version",
-         fault="major version of rank 1 set to 2",
-         damage=patch(lambda lay: 8, b"\x02\x00"),
+         fault="major version of rank 1 set to 3",
+         damage=patch(lambda lay: 8, b"\x03\x00"),
          verify=(1, V + r": offset 8: unsupported format version \(file is "
-                 r"version 2\.0, this reader reads 1\.x\)",
+                 r"version 3\.0, this reader reads 1\.x to 2\.x\)",
                  r"verify: 3 files ok, 1 damaged, 1 campaign problems; 9 "
                  r"blocks, 120 records"),
          reduce=(1, V + r": offset 8: unsupported format version"),

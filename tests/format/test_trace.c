@@ -1,5 +1,6 @@
-/* test_trace.c - unit tests of trace format v1: byte layout, round trips,
- * damage detection, truncation, range reads. */
+/* test_trace.c - unit tests of the trace format (2.0, and 1.x read and
+ * written on request): byte layout, round trips, damage detection,
+ * truncation, range reads. */
 #include <setjmp.h> /* cmocka needs jmp_buf */
 #include <stdarg.h> /* cmocka needs va_list */
 #include <stddef.h> /* cmocka needs size_t */
@@ -13,7 +14,7 @@
 
 #include <msgcensus/ops.h>
 #include <msgcensus/trace.h>
-#include <xxhash.h> /* XXH32, XXH64 (for the outside-reference check) */
+#include <xxhash.h> /* XXH32, XXH64, XXH3 (for the outside-reference check) */
 
 #include "trace_internal.h" /* mc__put32 etc., to craft damaged files */
 
@@ -181,9 +182,10 @@ static void spit(const char *path, const unsigned char *b, size_t len)
  * The expected byte sequences below are written out by hand from
  * docs/trace-format.md, which is the reference for the layout. Checksum
  * fields hold values computed by the xxhsum command (Debian package xxhash
- * 0.8.1, `xxhsum -H32` / `xxhsum -H64`) over the same bytes. */
+ * 0.8.1, `xxhsum -H32`, `xxhsum -H64`, `xxhsum -H3`) over the same bytes.
+ * The 1.0 header differs from the 2.0 one in byte 8 and its checksum. */
 
-static const unsigned char spec_header[128] = {
+static const unsigned char spec_header_v1[128] = {
     'M',  'C',  'T',  'R',  'A',  'C',  'E',  0x1a, /* 0: magic */
     0x01, 0x00, 0x00, 0x00,                         /* 8: version 1.0 */
     0x04, 0x03, 0x02, 0x01,                         /* 12: endian marker */
@@ -202,6 +204,16 @@ static const unsigned char spec_header[128] = {
     0,    0,    0,    0,    0x00, 0x00, 0x00, 0x00, /* 120: reserved */
     0xe0, 0x78, 0x95, 0xe2, /* 124: XXH32 = 0xe29578e0 (xxhsum -H32) */
 };
+
+/* The 2.0 header: spec_header_v1 with version 2.0 at byte 8 and the
+ * XXH32 of the changed bytes 0..123. */
+static void spec_header_v2(unsigned char out[128])
+{
+    memcpy(out, spec_header_v1, 128);
+    out[8] = 0x02; /* 8: version 2.0 */
+    static const unsigned char sum[4] = {0x0f, 0x6d, 0xff, 0xfc};
+    memcpy(out + 124, sum, 4); /* 124: XXH32 = 0xfcff6d0f (xxhsum -H32) */
+}
 
 /* Record A: every field distinct; record B: a collective. */
 static const mc_record spec_rec_a = {0x0102030405060708ull,
@@ -240,7 +252,7 @@ static const unsigned char spec_records[96] = {
     0x00, 0x02,                                     /* dir none, flags */
     0,    0,    0,    0,                            /* reserved */
 };
-static const unsigned char spec_block_header[40] = {
+static const unsigned char spec_block_header_v1[40] = {
     0x4d, 0x43, 0x42, 0x4b, /* 0: "MCBK" */
     0x00, 0x00, 0x00, 0x00, /* 4: seq 0 */
     0x02, 0x00, 0x00, 0x00, /* 8: nrecords 2 */
@@ -253,24 +265,47 @@ static const unsigned char spec_block_header[40] = {
     0x09, 0x8e, 0xa0, 0xe8, /* 32: XXH32 0xe8a08e09 (xxhsum -H32) */
     0x00, 0x00, 0x00, 0x00, /* 36: reserved */
 };
+static const unsigned char spec_block_header_v2[40] = {
+    0x4d, 0x43, 0x42, 0x4b, /* 0: "MCBK" */
+    0x00, 0x00, 0x00, 0x00, /* 4: seq 0 */
+    0x02, 0x00, 0x00, 0x00, /* 8: nrecords 2 */
+    0x60, 0x00, 0x00, 0x00, /* 12: raw_len 96 */
+    0x60, 0x00, 0x00, 0x00, /* 16: stored_len 96 */
+    0x00, 0x00,             /* 20: codec none, flags */
+    0x30, 0x00,             /* 22: record_size 48 */
+    0xd9, 0x26, 0x10, 0x43,
+    0xb1, 0x4f, 0x52, 0x3e, /* 24: XXH3 0x3e524fb1431026d9 (xxhsum -H3) */
+    0x90, 0xa3, 0xa6, 0xb9, /* 32: XXH32 0xb9a6a390 (xxhsum -H32) */
+    0x00, 0x00, 0x00, 0x00, /* 36: reserved */
+};
 
 static void test_header_bytes_match_spec(void **state)
 {
     (void)state;
     mc_trace_header h;
     test_header(&h);
-    unsigned char out[MC_TRACE_HEADER_SIZE];
+    unsigned char out[MC_TRACE_HEADER_SIZE], v2[128];
+    spec_header_v2(v2);
     mc_trace_header_encode(&h, out);
-    assert_memory_equal(out, spec_header, sizeof spec_header);
-    mc_trace_header d;
-    assert_int_equal(
-        mc_trace_header_decode(spec_header, sizeof spec_header, &d, NULL), 0);
-    assert_int_equal(d.app_rank, 3);
-    assert_int_equal(d.app_size, 8);
-    assert_int_equal(d.clock_res_ps, 1000);
-    assert_true(d.created_unix_ns == h.created_unix_ns);
-    assert_true(d.epoch_unix_ns == h.epoch_unix_ns);
-    assert_string_equal(d.host, "node017");
+    assert_memory_equal(out, v2, sizeof v2);
+    h.version_major = 1; /* asked for 1.0: the 1.0 bytes */
+    mc_trace_header_encode(&h, out);
+    assert_memory_equal(out, spec_header_v1, sizeof spec_header_v1);
+    for (int v = 1; v <= 2; v++) {
+        mc_trace_header d;
+        assert_int_equal(
+            mc_trace_header_decode(v == 1 ? spec_header_v1 : v2, 128, &d, NULL),
+            0);
+        assert_int_equal(d.version_major, v);
+        assert_int_equal(d.version_minor, 0);
+        assert_int_equal(d.app_rank, 3);
+        assert_int_equal(d.app_size, 8);
+        assert_int_equal(d.clock_res_ps, 1000);
+        test_header(&h);
+        assert_true(d.created_unix_ns == h.created_unix_ns);
+        assert_true(d.epoch_unix_ns == h.epoch_unix_ns);
+        assert_string_equal(d.host, "node017");
+    }
 }
 
 static void test_record_bytes_match_spec(void **state)
@@ -289,21 +324,92 @@ static void test_record_bytes_match_spec(void **state)
         assert_memory_equal(&spec_rec_a, spec_records, MC_RECORD_SIZE);
 }
 
-static void test_block_bytes_match_spec(void **state)
+/* The writer's bytes for two records, in format @major (0 = default). */
+static unsigned char *spec_file(const char *name, unsigned major, size_t *len)
 {
-    (void)state;
-    const char *p = tpath("spec.mct");
-    mc_trace_writer *w = open_writer(p, MC_CODEC_NONE, 0, 0);
+    const char *p = tpath(name);
+    mc_trace_header h;
+    test_header(&h);
+    mc_writer_opts o;
+    mc_writer_opts_init(&o);
+    o.write_footer = 0;
+    o.format_major = major;
+    mc_trace_writer *w = NULL;
+    assert_int_equal(mc_trace_writer_open(p, &h, &o, &w, NULL), 0);
     const mc_record two[2] = {spec_rec_a, spec_rec_b};
     assert_int_equal(mc_trace_write(w, two, 2, NULL), 0);
     assert_int_equal(mc_trace_writer_close(w, NULL), 0);
+    return slurp(p, len);
+}
+
+static void test_block_bytes_match_spec(void **state)
+{
+    (void)state;
+    unsigned char v2[128];
+    spec_header_v2(v2);
     size_t len;
-    unsigned char *b = slurp(p, &len);
+    unsigned char *b = spec_file("spec.mct", 0, &len);
     assert_int_equal(len, 128 + 40 + 96);
-    assert_memory_equal(b, spec_header, 128);
-    assert_memory_equal(b + 128, spec_block_header, 40);
+    assert_memory_equal(b, v2, 128);
+    assert_memory_equal(b + 128, spec_block_header_v2, 40);
     assert_memory_equal(b + 168, spec_records, 96);
     free(b);
+    /* Asked for format 1: the 1.0 bytes, XXH64 payload checksum. */
+    b = spec_file("spec-v1.mct", 1, &len);
+    assert_int_equal(len, 128 + 40 + 96);
+    assert_memory_equal(b, spec_header_v1, 128);
+    assert_memory_equal(b + 128, spec_block_header_v1, 40);
+    assert_memory_equal(b + 168, spec_records, 96);
+    free(b);
+}
+
+/* Both majors read back to the same records; a payload checksum of the
+ * other major's algorithm is a mismatch; the reader reports the stored
+ * (verified) checksum of each block. */
+static void test_both_majors_read_and_checksums_differ(void **state)
+{
+    (void)state;
+    const mc_record two[2] = {spec_rec_a, spec_rec_b};
+    for (unsigned major = 1; major <= 2; major++) {
+        size_t len;
+        unsigned char *b = spec_file("maj.mct", major, &len);
+        const uint64_t stored = mc__get64(b + 128 + 24);
+        assert_true(stored ==
+                    mc_trace_payload_checksum(major, spec_records, 96));
+        mc_trace_reader *r = NULL;
+        assert_int_equal(mc_trace_open(tpath("maj.mct"), &r, NULL), 0);
+        assert_int_equal(mc_trace_get_header(r)->version_major, major);
+        const mc_record *recs;
+        size_t n;
+        assert_int_equal(mc_trace_next_block(r, &recs, &n, NULL), 1);
+        assert_int_equal(n, 2);
+        assert_memory_equal(recs, two, sizeof two);
+        assert_true(mc_trace_current_checksum(r) == stored);
+        mc_trace_close(r);
+        /* The other algorithm's value, with a consistent block header. */
+        mc__put64(b + 128 + 24,
+                  mc_trace_payload_checksum(3 - major, spec_records, 96));
+        mc__put32(b + 128 + 32, XXH32(b + 128, 32, 0));
+        spit(tpath("maj.mct"), b, len);
+        free(b);
+        assert_int_equal(mc_trace_open(tpath("maj.mct"), &r, NULL), 0);
+        mc_errinfo e;
+        mc_errinfo_clear(&e);
+        assert_int_equal(mc_trace_next_block(r, &recs, &n, &e), MC_ECHECKSUM);
+        assert_int_equal(e.block, 0);
+        assert_int_equal(e.offset, 128);
+        mc_trace_close(r);
+    }
+    /* A writer refuses a format it does not write. */
+    mc_trace_header h;
+    test_header(&h);
+    mc_writer_opts o;
+    mc_writer_opts_init(&o);
+    o.format_major = 3;
+    mc_trace_writer *w = NULL;
+    assert_int_equal(mc_trace_writer_open(tpath("v3.mct"), &h, &o, &w, NULL),
+                     MC_EINVAL);
+    assert_null(w);
 }
 
 static void test_footer_bytes_match_spec(void **state)
@@ -341,10 +447,20 @@ static void test_xxhash_matches_reference_values(void **state)
     /* `printf msgcensus | xxhsum -H32` and `-H64` (xxhsum 0.8.1, Debian). */
     assert_true(XXH32("msgcensus", 9, 0) == 0x6f39ecbcu);
     assert_true(XXH64("msgcensus", 9, 0) == 0x1056f072bc36af7full);
-    /* Empty input, seed 0: the published xxHash test vectors 0x02CC5D05 and
-     * 0xEF46DB3751D8E999 (quoted from memory, confirmed with xxhsum). */
+    /* Empty input, seed 0: the published xxHash test vectors 0x02CC5D05,
+     * 0xEF46DB3751D8E999 and (XXH3_64bits) 0x2D06800538D394C2, quoted from
+     * memory and confirmed with xxhsum -H32 / -H64 / -H3. */
     assert_true(XXH32("", 0, 0) == 0x02cc5d05u);
     assert_true(XXH64("", 0, 0) == 0xef46db3751d8e999ull);
+    assert_true(XXH3_64bits("", 0) == 0x2d06800538d394c2ull);
+    /* `printf msgcensus | xxhsum -H3`; the payload checksums of both
+     * majors are these library functions. */
+    assert_true(XXH3_64bits("msgcensus", 9) == 0xa9a97d840eb38059ull);
+    assert_true(mc_trace_payload_checksum(2, "msgcensus", 9) ==
+                0xa9a97d840eb38059ull);
+    assert_true(mc_trace_payload_checksum(1, "msgcensus", 9) ==
+                0x1056f072bc36af7full);
+    assert_true(mc_trace_payload_checksum(3, "msgcensus", 9) == 0);
 }
 
 /* ---- round trips -------------------------------------------------------- */
@@ -572,11 +688,11 @@ static void test_bad_magic_is_rejected(void **state)
 static void test_unknown_major_version_names_both_versions(void **state)
 {
     (void)state;
-    const char *p = tpath("v2.mct");
+    const char *p = tpath("v3.mct");
     write_trace(p, 10, MC_CODEC_NONE, 100, 1);
     size_t len;
     unsigned char *b = slurp(p, &len);
-    mc__put16(b + 8, 2);
+    mc__put16(b + 8, 3);
     mc__put16(b + 10, 3);
     spit(p, b, len);
     free(b);
@@ -584,39 +700,53 @@ static void test_unknown_major_version_names_both_versions(void **state)
     mc_errinfo e;
     mc_errinfo_clear(&e);
     assert_int_equal(mc_trace_open(p, &r, &e), MC_EVERSION);
-    assert_string_equal(e.detail, "file is version 2.3, this reader reads 1.x");
+    assert_string_equal(e.detail,
+                        "file is version 3.3, this reader reads 1.x to 2.x");
+    /* Major 0 is no version either. */
+    b = slurp(p, &len);
+    mc__put16(b + 8, 0);
+    spit(p, b, len);
+    free(b);
+    mc_errinfo_clear(&e);
+    assert_int_equal(mc_trace_open(p, &r, &e), MC_EVERSION);
 }
 
 static void
 test_later_minor_with_longer_header_and_records_is_read(void **state)
 {
     (void)state;
-    /* A hand-made v1.1 file: 160-byte header, one block of 2 records of 56
-     * bytes (the v1.0 record followed by 8 bytes a 1.0 reader ignores). */
-    unsigned char f[160 + 40 + 112];
-    memset(f, 0xee, sizeof f);
-    mc_trace_header h;
-    test_header(&h);
-    mc_trace_header_encode(&h, f);
-    mc__put16(f + 10, 1);
-    mc__put32(f + 16, 160);
-    mc__put32(f + 124, XXH32(f, 124, 0));
-    unsigned char *pl = f + 200;
-    memcpy(pl, spec_records, 48);
-    memcpy(pl + 56, spec_records + 48, 48);
-    mc__block_header bh = {MC_BLOCK_MAGIC,    0, 2, 112, 112, 0, 0, 56,
-                           XXH64(pl, 112, 0), 0, 0};
-    mc__block_header_encode(&bh, f + 160);
-    const char *p = tpath("v11.mct");
-    spit(p, f, sizeof f);
-    size_t n;
-    int rc;
-    mc_record *got = read_all(p, &n, &rc);
-    assert_int_equal(rc, 0);
-    assert_int_equal(n, 2);
-    assert_memory_equal(&got[0], &spec_rec_a, sizeof got[0]);
-    assert_memory_equal(&got[1], &spec_rec_b, sizeof got[1]);
-    free(got);
+    /* Hand-made 1.1 and 2.1 files: 160-byte header, one block of 2 records
+     * of 56 bytes (the 48-byte record followed by 8 bytes a x.0 reader
+     * ignores), with the payload checksum of each major. */
+    for (unsigned major = 1; major <= 2; major++) {
+        unsigned char f[160 + 40 + 112];
+        memset(f, 0xee, sizeof f);
+        mc_trace_header h;
+        test_header(&h);
+        h.version_major = (uint16_t)major;
+        mc_trace_header_encode(&h, f);
+        mc__put16(f + 10, 1);
+        mc__put32(f + 16, 160);
+        mc__put32(f + 124, XXH32(f, 124, 0));
+        unsigned char *pl = f + 200;
+        memcpy(pl, spec_records, 48);
+        memcpy(pl + 56, spec_records + 48, 48);
+        const uint64_t sum =
+            major == 1 ? XXH64(pl, 112, 0) : XXH3_64bits(pl, 112);
+        mc__block_header bh = {
+            MC_BLOCK_MAGIC, 0, 2, 112, 112, 0, 0, 56, sum, 0, 0};
+        mc__block_header_encode(&bh, f + 160);
+        const char *p = tpath("v11.mct");
+        spit(p, f, sizeof f);
+        size_t n;
+        int rc;
+        mc_record *got = read_all(p, &n, &rc);
+        assert_int_equal(rc, 0);
+        assert_int_equal(n, 2);
+        assert_memory_equal(&got[0], &spec_rec_a, sizeof got[0]);
+        assert_memory_equal(&got[1], &spec_rec_b, sizeof got[1]);
+        free(got);
+    }
 }
 
 static void test_short_file_with_magic_prefix_is_truncated(void **state)
@@ -834,6 +964,8 @@ static void expect_bad(const mc_record *rec, const char *phrase)
     mc_errinfo_clear(&e);
     assert_int_equal(mc_record_check(rec, &e), MC_ERECORD);
     assert_non_null(strstr(e.detail, phrase));
+    /* The inline test of the reducer's loop says the same. */
+    assert_int_equal(mc_record_valid(rec, mc_op_known_table()), 0);
 }
 
 static void test_record_check_rejects_each_bad_field(void **state)
@@ -841,6 +973,7 @@ static void test_record_check_rejects_each_bad_field(void **state)
     (void)state;
     mc_record r = spec_rec_a;
     assert_int_equal(mc_record_check(&r, NULL), 0);
+    assert_int_equal(mc_record_valid(&r, mc_op_known_table()), 1);
     r.op = 99;
     expect_bad(&r, "unknown operation code 99");
     r = spec_rec_a;
@@ -866,6 +999,8 @@ static void test_record_check_agrees_with_op_table(void **state)
     for (unsigned code = 0; code <= UINT16_MAX; code++) {
         r.op = (uint16_t)code;
         assert_int_equal(mc_record_check(&r, NULL) == 0, mc_op_valid(code));
+        assert_int_equal(mc_record_valid(&r, mc_op_known_table()),
+                         mc_op_valid(code));
     }
 }
 
@@ -893,6 +1028,7 @@ int main(void)
         cmocka_unit_test(test_header_bytes_match_spec),
         cmocka_unit_test(test_record_bytes_match_spec),
         cmocka_unit_test(test_block_bytes_match_spec),
+        cmocka_unit_test(test_both_majors_read_and_checksums_differ),
         cmocka_unit_test(test_footer_bytes_match_spec),
         cmocka_unit_test(test_xxhash_matches_reference_values),
         cmocka_unit_test(test_roundtrip_every_field_uncompressed),

@@ -23,7 +23,8 @@ static void fuzz_file_header(const uint8_t *data, size_t size)
         return;
     }
     FUZZ_CHECK(size >= MC_TRACE_HEADER_SIZE);
-    FUZZ_CHECK(h.version_major == MC_TRACE_VERSION_MAJOR);
+    FUZZ_CHECK(h.version_major >= MC_TRACE_OLDEST_MAJOR &&
+               h.version_major <= MC_TRACE_VERSION_MAJOR);
     FUZZ_CHECK(strnlen(h.host, sizeof h.host) < sizeof h.host);
     /* Encoding what was decoded gives a header that decodes to the same
      * fields (the writer always writes its own minor version and a

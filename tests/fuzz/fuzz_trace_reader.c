@@ -114,7 +114,8 @@ static void read_all(const uint8_t *data, size_t size, pass *out)
     out->opened = 1;
     FUZZ_CHECK(mc_trace_file_size(r) == size);
     const mc_trace_header *h = mc_trace_get_header(r);
-    FUZZ_CHECK(h->version_major == MC_TRACE_VERSION_MAJOR);
+    FUZZ_CHECK(h->version_major >= MC_TRACE_OLDEST_MAJOR &&
+               h->version_major <= MC_TRACE_VERSION_MAJOR);
     FUZZ_CHECK(strnlen(h->host, sizeof h->host) < sizeof h->host);
 
     const mc_block_info *blocks = NULL;
@@ -242,6 +243,9 @@ static void fixup_checksums(unsigned char *p, size_t size)
         raw = malloc(FIXUP_MAX_RAW);
     if (size >= MC_TRACE_HEADER_SIZE)
         mc__put32(p + 124, XXH32(p, 124, 0));
+    /* The payload checksum of the file's major (XXH64 in 1.x, XXH3 in
+     * 2.x); 0 for a major no reader accepts. */
+    const unsigned major = size >= 10 ? mc__get16(p + 8) : 0;
     uint64_t off = MC_TRACE_HEADER_SIZE;
     if (size >= 20) {
         const uint32_t hs = mc__get32(p + 16);
@@ -262,11 +266,13 @@ static void fixup_checksums(unsigned char *p, size_t size)
             break;
         const unsigned char *payload = b + MC_BLOCK_HEADER_SIZE;
         if (b[20] == MC_CODEC_NONE && raw_len <= stored) {
-            mc__put64(b + 24, XXH64(payload, raw_len, 0));
+            mc__put64(b + 24,
+                      mc_trace_payload_checksum(major, payload, raw_len));
         } else if (b[20] == MC_CODEC_ZSTD && raw && raw_len <= FIXUP_MAX_RAW) {
             const size_t k = ZSTD_decompress(raw, raw_len, payload, stored);
             if (!ZSTD_isError(k) && k == raw_len)
-                mc__put64(b + 24, XXH64(raw, raw_len, 0));
+                mc__put64(b + 24,
+                          mc_trace_payload_checksum(major, raw, raw_len));
         }
         mc__put32(b + 32, XXH32(b, 32, 0));
         off += MC_BLOCK_HEADER_SIZE + (uint64_t)stored;

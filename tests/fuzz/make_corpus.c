@@ -55,9 +55,10 @@ static void seed_header(mc_trace_header *h)
     h->epoch_unix_ns = 1700000000000000000ULL;
 }
 
-static int write_one(const char *dir, const char *name, size_t nrec,
-                     uint32_t block_records, mc_codec codec, int footer,
-                     int flush_partial)
+/* @major: trace format to write (0 = the current one). */
+static int write_one_major(const char *dir, const char *name, size_t nrec,
+                           uint32_t block_records, mc_codec codec, int footer,
+                           int flush_partial, unsigned major)
 {
     char path[4096];
     snprintf(path, sizeof path, "%s/%s", dir, name);
@@ -68,6 +69,7 @@ static int write_one(const char *dir, const char *name, size_t nrec,
     o.block_records = block_records;
     o.codec = codec;
     o.write_footer = footer;
+    o.format_major = major;
     mc_record recs[64];
     if (nrec > sizeof recs / sizeof recs[0])
         nrec = sizeof recs / sizeof recs[0];
@@ -98,6 +100,14 @@ static int write_one(const char *dir, const char *name, size_t nrec,
     }
     printf("%s\n", path);
     return 0;
+}
+
+static int write_one(const char *dir, const char *name, size_t nrec,
+                     uint32_t block_records, mc_codec codec, int footer,
+                     int flush_partial)
+{
+    return write_one_major(dir, name, nrec, block_records, codec, footer,
+                           flush_partial, 0);
 }
 
 /* A CSV file: the exporter's preamble (or only the header row) and
@@ -160,6 +170,11 @@ int main(int argc, char **argv)
     bad |= write_one(d, "empty-footer.mct", 0, 4, MC_CODEC_NONE, 1, 0);
     bad |= write_one(d, "header-only.mct", 0, 4, MC_CODEC_NONE, 0, 1);
     bad |= write_one(d, "zstd-one-block.mct", 64, 64, MC_CODEC_ZSTD, 1, 0);
+    /* Format 1.x files (XXH64 payload checksums), which readers still read. */
+    bad |= write_one_major(d, "v1-plain-footer.mct", 11, 4, MC_CODEC_NONE, 1, 0,
+                           1);
+    bad |=
+        write_one_major(d, "v1-zstd-footer.mct", 24, 8, MC_CODEC_ZSTD, 1, 0, 1);
     bad |= write_csv(c, "preamble.csv", 16, 1, 0);
     bad |= write_csv(c, "header-row-only.csv", 0, 0, 0);
     bad |= write_csv(c, "no-preamble.csv", 8, 0, 0);

@@ -10,7 +10,7 @@ import numpy as np  # Debian python3-numpy
 CLI = os.environ["MC_CLI"]
 MPIRUN = shlex.split(os.environ.get("MC_MPIRUN", "mpirun --oversubscribe"))
 
-# Record layout of trace format v1.0 (docs/trace-format.md, 48 bytes).
+# Record layout of trace formats 1.0 and 2.0 (docs/trace-format.md, 48 bytes).
 REC = np.dtype([("bytes", "<u8"), ("t_start", "<u8"), ("t_end", "<u8"),
                 ("comm", "<u4"), ("comm_size", "<u4"), ("peer", "<i4"),
                 ("tag", "<i4"), ("op", "<u2"), ("dir", "u1"), ("flags", "u1"),
@@ -64,8 +64,8 @@ def blocks_of(path):
 
 
 def block_checksums(path):
-    """The raw payload checksum (raw_xxh64, bytes 24..31 of each block
-    header) of every block, in block order."""
+    """The payload checksum (bytes 24..31 of each block header: XXH64 in
+    trace format 1.x, XXH3_64bits in 2.x) of every block, in block order."""
     data = open(path, "rb").read()
     return [data[off + 24:off + 32] for off, _, _ in blocks_of(path)]
 

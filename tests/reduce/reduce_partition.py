@@ -9,8 +9,13 @@
              4 and 7 (compared with h5py, Debian python3-h5py), on a zstd
              campaign without footers (block-walk splitting) with
              per-communicator populations.
+  formats    the same campaign written in trace formats 1.0 (XXH64 block
+             checksums) and 2.0 (XXH3) reduces, at P = 1 and 3, to the same
+             datasets but the files' checksums, and each file's checksum is
+             `xxhsum -H1` (Debian xxhash) over its stored block checksums.
 """
 import os
+import subprocess
 import sys
 import tempfile
 
@@ -18,8 +23,8 @@ import h5py  # Debian python3-h5py
 import numpy as np  # Debian python3-numpy
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from reduce_common import (campaign_files, reduce_cmd, records_of_file, run,
-                           synth)
+from reduce_common import (block_checksums, campaign_files, reduce_cmd,
+                           records_of_file, run, synth)
 
 
 def test_totals(tmp):
@@ -67,6 +72,60 @@ def datasets(path):
     return out
 
 
+def same(a, b):
+    """Bit-identical datasets: the raw bytes (NaN-safe), and for
+    variable-length strings the decoded values."""
+    if a.dtype != b.dtype or a.shape != b.shape:
+        return False
+    if a.dtype.hasobject or (a.dtype.names and any(
+            a.dtype[n].hasobject for n in a.dtype.names)):
+        return a.tolist() == b.tolist()
+    return a.tobytes() == b.tobytes()
+
+
+def test_formats(tmp):
+    args = ["--ranks", "4", "--steps", "40", "--uneven", "--block-records",
+            "200"]
+    camps = {}
+    for fmt in ("1", "2"):
+        camps[fmt] = os.path.join(tmp, "f" + fmt)
+        synth(camps[fmt], *args, "--trace-format", fmt)
+        for f in campaign_files(camps[fmt]):
+            with open(os.path.join(camps[fmt], f), "rb") as fh:
+                assert fh.read(10)[8:10] == bytes([int(fmt), 0]), (fmt, f)
+    ref = None
+    for fmt in ("1", "2"):
+        for p in (1, 3):
+            out = os.path.join(tmp, "f%s-%d.h5" % (fmt, p))
+            run(reduce_cmd(p, camps[fmt], "-o", out, "--per-comm"))
+            d = datasets(out)
+            src = d.pop("sources")
+            for row in src:
+                name = row["path"].decode() if isinstance(row["path"], bytes) \
+                    else row["path"]
+                seq = os.path.join(tmp, "sums.bin")
+                with open(seq, "wb") as fh:
+                    fh.write(b"".join(block_checksums(
+                        os.path.join(camps[fmt], name))))
+                want = subprocess.run(["xxhsum", "-H1", seq],
+                                      capture_output=True, text=True,
+                                      check=True).stdout.split()[0]
+                assert format(int(row["checksum"]), "016x") == want, name
+            if ref is None:
+                ref, ref_src = d, src
+                continue
+            assert sorted(d) == sorted(ref), (fmt, p)
+            for k in ref:
+                assert same(ref[k], d[k]), (fmt, p, k)
+            for n in src.dtype.names:
+                if n != "checksum":
+                    assert src[n].tolist() == ref_src[n].tolist(), (fmt, p, n)
+            if fmt == "2":
+                assert (src["checksum"] != ref_src["checksum"]).all()
+            print("format %s, P=%d: %d datasets identical to format 1, P=1"
+                  % (fmt, p, len(d)))
+
+
 def test_identical(tmp):
     camp = os.path.join(tmp, "zc")
     synth(camp, "--ranks", "5", "--steps", "30", "--uneven", "--zstd",
@@ -97,7 +156,8 @@ def test_identical(tmp):
 def main():
     mode = sys.argv[1]
     with tempfile.TemporaryDirectory() as tmp:
-        {"totals": test_totals, "identical": test_identical}[mode](tmp)
+        {"totals": test_totals, "identical": test_identical,
+         "formats": test_formats}[mode](tmp)
     return 0
 
 
