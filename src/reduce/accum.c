@@ -4,13 +4,9 @@
 #include "reduce_internal.h"
 #include "memlimit.h" /* --max-memory accounting */
 
-#include <fcntl.h>  /* open */
 #include <stdio.h>  /* snprintf */
 #include <stdlib.h> /* calloc, realloc, free */
 #include <string.h> /* memset, memcpy */
-#include <unistd.h> /* pread, close */
-
-#include <xxhash.h> /* XXH64: block checksums when the stored one is unreadable */
 
 /* ---- histogram map (communicator ids) ------------------------------------ */
 
@@ -156,7 +152,6 @@ typedef struct peer_slot {
 typedef struct peermap {
     size_t cap, n;
     peer_slot *s;
-    size_t last; /* slot of the last peer: neighbours repeat */
 } peermap;
 
 static int peermap_grow(peermap *m)
@@ -178,11 +173,10 @@ static int peermap_grow(peermap *m)
     free(m->s);
     m->s = s;
     m->cap = ncap;
-    m->last = 0;
     return 0;
 }
 
-static int peermap_add(peermap *m, int32_t peer, uint64_t bytes)
+static int peermap_add(peermap *m, int32_t peer, uint64_t msgs, uint64_t bytes)
 {
     if ((m->n + 1) * 2 > m->cap && peermap_grow(m) != 0)
         return MC_ENOMEM;
@@ -195,9 +189,8 @@ static int peermap_add(peermap *m, int32_t peer, uint64_t bytes)
         m->s[j].bytes = 0;
         m->n++;
     }
-    m->s[j].msgs++;
+    m->s[j].msgs += msgs;
     m->s[j].bytes += bytes;
-    m->last = j;
     return 0;
 }
 
@@ -209,48 +202,6 @@ static void fill_categories(uint8_t cat[MC_OP_MAX_CODE + 1])
 {
     for (unsigned c = 0; c <= MC_OP_MAX_CODE; c++)
         cat[c] = (uint8_t)mc_op_category_of(c);
-}
-
-/* Per-block raw checksum: XXH64 (seed 0) of the 48-byte little-endian
- * records, which is the trace format's raw payload checksum. */
-static uint64_t compute_checksum(const mc_record *recs, size_t n)
-{
-#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
-    return XXH64(recs, n * sizeof *recs, 0);
-#else
-    XXH64_state_t *st = XXH64_createState();
-    XXH64_reset(st, 0);
-    unsigned char b[MC_RECORD_SIZE];
-    for (size_t i = 0; i < n; i++) {
-        mc_record_encode(&recs[i], b);
-        XXH64_update(st, b, sizeof b);
-    }
-    const uint64_t h = XXH64_digest(st);
-    XXH64_freeState(st);
-    return h;
-#endif
-}
-
-/* Offset of the payload checksum in a block header (docs/trace-format.md,
- * "Block"). The reader has just verified the payload against it, so taking
- * the stored value costs one 8-byte pread per block where recomputing it
- * would hash every record a second time (a third of the single-rank time
- * in a profile). */
-#define BLOCK_RAW_SUM_OFFSET 24u
-
-static uint64_t block_checksum(int fd, uint64_t block_off,
-                               const mc_record *recs, size_t n)
-{
-    unsigned char b[8];
-    if (fd >= 0 &&
-        pread(fd, b, sizeof b, (off_t)(block_off + BLOCK_RAW_SUM_OFFSET)) ==
-            (ssize_t)sizeof b) {
-        uint64_t v = 0;
-        for (int i = 7; i >= 0; i--)
-            v = (v << 8) | b[i];
-        return v;
-    }
-    return compute_checksum(recs, n);
 }
 
 static int push_sum(mc__unit_result *res, size_t *cap, uint64_t sum)
@@ -267,8 +218,32 @@ static int push_sum(mc__unit_result *res, size_t *cap, uint64_t sum)
     return 0;
 }
 
+/* ---- unit-local combiner -------------------------------------------------
+ * Counts records by (op key, size, peer) in a small direct-mapped table
+ * that stays in L1: a record costs a hash, one compare and one increment.
+ * A triple leaves its slot when another one takes it, and at the end of
+ * the unit; only then does it go into its histogram, the rank's totals row
+ * and the send matrix, as n messages of its size. The histograms are exact
+ * and additions commute, and n * size equals n additions of size modulo
+ * 2^64, so every table ends up exactly as with one update per record. */
+#define COMB_BITS 9u
+#define COMB_SLOTS (1u << COMB_BITS)
+
+typedef struct comb_slot {
+    uint64_t size;
+    uint64_t kp; /* op key in the low 32 bits, peer (as u32) in the high */
+    uint64_t n;  /* 0 = nothing pending */
+} comb_slot;
+
+static inline size_t comb_index(uint64_t size, uint64_t kp)
+{
+    const uint64_t x = size ^ (kp * 0xC2B2AE3D27D4EB4Full);
+    return (size_t)((x * 0x9E3779B97F4A7C15ull) >> (64u - COMB_BITS));
+}
+
 /* Unit-local state; freed at the end of mc__unit_reduce. */
 typedef struct unit_ctx {
+    comb_slot comb[COMB_SLOTS]; /* all zero: key 0 is no valid op */
     mc__acc ua;
     peermap peers;
     mc__row row;
@@ -278,102 +253,164 @@ typedef struct unit_ctx {
     mc_hist *last_comm_hist;
 } unit_ctx;
 
+/* Move one pending triple into the histogram, the totals row and the
+ * matrix. @what names the table that failed. */
+static int comb_flush_slot(unit_ctx *c, comb_slot *s, const char **what)
+{
+    if (!s->n)
+        return 0;
+    const unsigned k = (unsigned)(s->kp & 0xffffffffu);
+    const int32_t peer = (int32_t)(uint32_t)(s->kp >> 32);
+    const uint64_t n = s->n, bytes = n * s->size;
+    s->n = 0;
+    int rc = mc_hist_add(c->ua.op[k], s->size, n);
+    if (rc) {
+        *what = "histogram";
+        return rc;
+    }
+    uint64_t *row = c->row.v;
+    const unsigned cat = c->cat[k / MC__NDIRS];
+    if (cat == MC_CAT_P2P) {
+        if (k % MC__NDIRS == MC_DIR_RECV) {
+            row[2] += n;
+            row[3] += bytes;
+        } else {
+            row[0] += n;
+            row[1] += bytes;
+            if (peer >= 0 && (rc = peermap_add(&c->peers, peer, n, bytes))) {
+                *what = "matrix";
+                return rc;
+            }
+        }
+    } else if (cat == MC_CAT_ONESIDED) {
+        row[6] += n;
+        row[7] += bytes;
+    } else {
+        row[4] += n;
+        row[5] += bytes;
+    }
+    return 0;
+}
+
+static int comb_flush(unit_ctx *c, const char **what)
+{
+    for (size_t i = 0; i < COMB_SLOTS; i++) {
+        const int rc = comb_flush_slot(c, &c->comb[i], what);
+        if (rc)
+            return rc;
+    }
+    return 0;
+}
+
+/* The slot @s holds another triple: flush it and take it for this one,
+ * creating the op key's histogram on first use. */
+static int comb_take(unit_ctx *c, comb_slot *s, uint64_t size, uint64_t kp,
+                     const char **what)
+{
+    int rc = comb_flush_slot(c, s, what);
+    if (rc)
+        return rc;
+    mc_hist **h = &c->ua.op[kp & 0xffffffffu];
+    if (!*h && (rc = mc_hist_create(h)) != 0) {
+        *what = "histogram";
+        return rc;
+    }
+    s->size = size;
+    s->kp = kp;
+    s->n = 1;
+    return 0;
+}
+
+/* Per-peer records of a collective repeat, peer by peer, bytes the call's
+ * own record already counts (docs/trace-format.md, byte conventions): they
+ * are read and checked but enter no population, total or matrix. */
+static inline int counted(const mc_record *r)
+{
+    return !(r->flags & MC_RF_PER_PEER);
+}
+
+/* Per-communicator histograms of recs[i0..i1): every counted record but
+ * point-to-point receives (each message once, on the send side). */
+static int reduce_comms(unit_ctx *c, const mc_record *recs, size_t i0,
+                        size_t i1)
+{
+    for (size_t i = i0; i < i1; i++) {
+        const mc_record *r = &recs[i];
+        if (!counted(r) ||
+            (c->cat[r->op] == MC_CAT_P2P && r->dir == MC_DIR_RECV))
+            continue;
+        if (!c->last_comm_hist || c->last_comm != r->comm_id) {
+            c->last_comm_hist = mc__histmap_get(&c->ua.comm, r->comm_id);
+            c->last_comm = r->comm_id;
+        }
+        const int rc = c->last_comm_hist
+                           ? mc_hist_add(c->last_comm_hist, r->bytes, 1)
+                           : MC_ENOMEM;
+        if (rc)
+            return rc;
+    }
+    return 0;
+}
+
+/* Reduce recs[i0..n) up to the first invalid record: *stop is its index,
+ * or n when every record is valid. The check is inlined here rather than
+ * done in a pass of its own: one pass over the block instead of two. */
+static int reduce_valid(unit_ctx *c, const mc_record *recs, size_t i0, size_t n,
+                        size_t *stop, const char **what)
+{
+    const unsigned char *known = mc_op_known_table();
+    size_t i;
+    int rc = 0;
+    for (i = i0; i < n; i++) {
+        const mc_record *r = &recs[i];
+        if (!mc_record_valid(r, known))
+            break;
+        if (!counted(r))
+            continue;
+        const uint64_t kp = ((unsigned)r->op * MC__NDIRS + r->dir) |
+                            (uint64_t)(uint32_t)r->peer << 32;
+        comb_slot *s = &c->comb[comb_index(r->bytes, kp)];
+        /* A slot left behind by a flush (n == 0) may match: its histogram
+         * exists, and counting from 0 is right. */
+        if (s->size == r->bytes && s->kp == kp) {
+            s->n++;
+        } else if ((rc = comb_take(c, s, r->bytes, kp, what)) != 0) {
+            break;
+        }
+    }
+    *stop = i;
+    if (!rc && c->per_comm && (rc = reduce_comms(c, recs, i0, i)) != 0)
+        *what = "communicator histogram";
+    return rc;
+}
+
 /* Reduce the records of one decoded block. Invalid records are counted as
- * rejected (skip_damaged) or end the unit with MC_ERECORD. One
- * mc_hist_add() per record: bench_reduce_hist measured it faster than a
- * per-block counting sort feeding mc_hist_add_sizes() (docs/performance.md). */
+ * rejected (skip_damaged) or end the unit with MC_ERECORD. */
 static int reduce_block(unit_ctx *c, const mc_record *recs, size_t n,
                         int skip_damaged, uint64_t *invalid, const char *path,
                         uint64_t block_index, uint64_t block_off,
                         mc_errinfo *err)
 {
-    int rc = 0;
-    /* The totals row lives in registers for the block, written back once. */
-    uint64_t row[8];
-    memcpy(row, c->row.v, sizeof row);
-    unsigned last_key = UINT32_MAX;
-    mc_hist *h = NULL;
-    for (size_t i = 0; i < n; i++) {
-        const mc_record *r = &recs[i];
-        mc_errinfo e;
-        if (mc_record_check(r, &e) != 0) {
-            if (!skip_damaged) {
-                rc = mc_errinfo_set(err, MC_ERECORD, path, (int64_t)block_index,
-                                    (int64_t)block_off,
-                                    "record %zu of the block: %s", i, e.detail);
-                break;
-            }
-            (*invalid)++;
-            continue;
+    size_t i = 0;
+    for (;;) {
+        size_t end = n;
+        const char *what = "histogram";
+        const int rc = reduce_valid(c, recs, i, n, &end, &what);
+        if (rc)
+            return mc_errinfo_set(err, rc, path, (int64_t)block_index,
+                                  (int64_t)block_off, "%s", what);
+        if (end == n)
+            return 0;
+        if (!skip_damaged) {
+            mc_errinfo e;
+            mc_record_check(&recs[end], &e);
+            return mc_errinfo_set(err, MC_ERECORD, path, (int64_t)block_index,
+                                  (int64_t)block_off,
+                                  "record %zu of the block: %s", end, e.detail);
         }
-        /* Per-peer records of a collective repeat, peer by peer, bytes the
-         * call's own record already counts (docs/trace-format.md, byte
-         * conventions): they are read and checked but enter no population,
-         * total or matrix. */
-        if (r->flags & MC_RF_PER_PEER)
-            continue;
-        const unsigned k = (unsigned)r->op * MC__NDIRS + r->dir;
-        if (k != last_key) {
-            if (!c->ua.op[k] && mc_hist_create(&c->ua.op[k]) != 0) {
-                rc = mc_errinfo_set(err, MC_ENOMEM, path, (int64_t)block_index,
-                                    (int64_t)block_off, "histogram");
-                break;
-            }
-            h = c->ua.op[k];
-            last_key = k;
-        }
-        const int hrc = mc_hist_add(h, r->bytes, 1);
-        if (hrc != 0) {
-            rc = mc_errinfo_set(err, hrc, path, (int64_t)block_index,
-                                (int64_t)block_off, "histogram");
-            break;
-        }
-        const unsigned cat = c->cat[r->op];
-        int in_all = 1;
-        if (cat == MC_CAT_P2P) {
-            if (r->dir == MC_DIR_RECV) {
-                row[2]++;
-                row[3] += r->bytes;
-                in_all = 0;
-            } else {
-                row[0]++;
-                row[1] += r->bytes;
-                peer_slot *last =
-                    c->peers.cap ? &c->peers.s[c->peers.last] : NULL;
-                if (r->peer >= 0 && last && last->peer == r->peer) {
-                    last->msgs++;
-                    last->bytes += r->bytes;
-                } else if (r->peer >= 0 &&
-                           peermap_add(&c->peers, r->peer, r->bytes) != 0) {
-                    rc = mc_errinfo_set(err, MC_ENOMEM, path,
-                                        (int64_t)block_index,
-                                        (int64_t)block_off, "matrix");
-                    break;
-                }
-            }
-        } else if (cat == MC_CAT_ONESIDED) {
-            row[6]++;
-            row[7] += r->bytes;
-        } else {
-            row[4]++;
-            row[5] += r->bytes;
-        }
-        if (c->per_comm && in_all) {
-            if (!c->last_comm_hist || c->last_comm != r->comm_id) {
-                c->last_comm_hist = mc__histmap_get(&c->ua.comm, r->comm_id);
-                c->last_comm = r->comm_id;
-            }
-            if (!c->last_comm_hist ||
-                mc_hist_add(c->last_comm_hist, r->bytes, 1) != 0) {
-                rc = mc_errinfo_set(err, MC_ENOMEM, path, (int64_t)block_index,
-                                    (int64_t)block_off,
-                                    "communicator histogram");
-                break;
-            }
-        }
+        (*invalid)++;
+        i = end + 1;
     }
-    memcpy(c->row.v, row, sizeof row);
-    return rc;
 }
 
 /* --max-memory: what this rank holds with the unit being read, looked at
@@ -452,7 +489,6 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
     uint64_t published = 0;
     const uint64_t start_off = u->first_block ? u->start.offset : 0;
     mc_trace_reader *r = NULL;
-    const int sumfd = open(path, O_RDONLY);
     int rc = mc_trace_open(path, &r, err);
     if (rc)
         goto out;
@@ -509,8 +545,9 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
         }
         res->records += n - (res->invalid - before);
         res->blocks++;
-        if ((rc = push_sum(res, &sumcap,
-                           block_checksum(sumfd, boff, recs, n))) != 0) {
+        /* The stored payload checksum, which the reader has just verified:
+         * the file's checksum in the summary is computed from these. */
+        if ((rc = push_sum(res, &sumcap, mc_trace_current_checksum(r))) != 0) {
             mc_errinfo_set(err, rc, path, (int64_t)bidx, (int64_t)boff,
                            "checksums");
             goto out;
@@ -523,6 +560,11 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
             rc = 1; /* another rank failed; its error is reported */
             goto out;
         }
+    }
+    if (!rc) {
+        const char *what = "histogram";
+        if ((rc = comb_flush(c, &what)) != 0)
+            mc_errinfo_set(err, rc, path, -1, -1, "%s", what);
     }
     if (!rc) {
         /* Fold the unit's own state into the rank's accumulator. */
@@ -550,8 +592,6 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
     }
 out:
     mc_trace_close(r);
-    if (sumfd >= 0)
-        close(sumfd);
     mc__acc_free(&c->ua);
     free(c->peers.s);
     free(c);
