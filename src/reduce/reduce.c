@@ -21,16 +21,38 @@ void mc_reduce_opts_init(mc_reduce_opts *o)
     o->progress_interval_s = 0.5;
 }
 
+/* This host's name as it goes into temporary file names: at most 64
+ * characters of [A-Za-z0-9._-], anything else as '_'. */
+static void host_tag(char *buf, size_t cap)
+{
+    char h[256] = "";
+    if (gethostname(h, sizeof h - 1) != 0 || !h[0])
+        snprintf(h, sizeof h, "unknown");
+    size_t n = 0;
+    for (const char *p = h; *p && n + 1 < cap && n < 64; p++) {
+        const char c = *p;
+        const int ok = (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') ||
+                       (c >= '0' && c <= '9') || c == '.' || c == '-' ||
+                       c == '_';
+        buf[n++] = ok ? c : '_';
+    }
+    buf[n] = '\0';
+}
+
 /* Temporary name next to the target, so the final rename stays inside one
- * file system: DIR/.BASE.tmp-PID. */
+ * file system: DIR/.BASE.tmp-HOST-PID. The host keeps writers on different
+ * hosts of a shared file system apart, and tells the leftover cleanup
+ * which temporary files it can judge. */
 static void temp_name(const char *out, char *buf, size_t cap)
 {
+    char host[65];
+    host_tag(host, sizeof host);
     const char *slash = strrchr(out, '/');
     if (slash)
-        snprintf(buf, cap, "%.*s/.%s.tmp-%ld", (int)(slash - out), out,
-                 slash + 1, (long)getpid());
+        snprintf(buf, cap, "%.*s/.%s.tmp-%s-%ld", (int)(slash - out), out,
+                 slash + 1, host, (long)getpid());
     else
-        snprintf(buf, cap, ".%s.tmp-%ld", out, (long)getpid());
+        snprintf(buf, cap, ".%s.tmp-%s-%ld", out, host, (long)getpid());
 }
 
 /* Move the finished temporary file to @out: rename() with --force; without
@@ -82,9 +104,11 @@ static int write_summary(const mc_summary *s, const char *out, int force,
     return publish(tmp, out, force, err);
 }
 
-/* Temporary summaries of killed runs: DIR/.BASE.tmp-PID whose PID is no
- * running process on this host (a kill -9 while writing leaves one; it is
- * never at the target). The next run to the same target removes them. */
+/* Temporary summaries of killed runs: DIR/.BASE.tmp-HOST-PID written on
+ * this host whose PID is no running process here (a kill -9 while writing
+ * leaves one; it is never at the target). The next run to the same target
+ * on the same host removes them; those of other hosts are left alone,
+ * since only their own host can tell whether their writer still runs. */
 static void remove_leftovers(const mc_reduce_opts *o)
 {
     char dir[4096], pre[1100], path[8192];
@@ -94,7 +118,9 @@ static void remove_leftovers(const mc_reduce_opts *o)
         snprintf(dir, sizeof dir, "%.*s", (int)(slash - o->output), o->output);
     else
         snprintf(dir, sizeof dir, "%s", slash ? "/" : ".");
-    const int np = snprintf(pre, sizeof pre, ".%s.tmp-", base);
+    char host[65];
+    host_tag(host, sizeof host);
+    const int np = snprintf(pre, sizeof pre, ".%s.tmp-%s-", base, host);
     DIR *d = opendir(dir);
     if (!d || np <= 0 || (size_t)np >= sizeof pre) {
         if (d)
