@@ -394,7 +394,8 @@ enum { FMT_TEXT, FMT_CSV, FMT_JSON };
 
 /* The HTML page: written to a temporary name beside FILE and moved into
  * place, so a reader never sees half a page. */
-static int write_html(const mc_summary *s, const char *html, int force)
+static int write_html(const mc_summary *s, const char *only, const char *html,
+                      int force)
 {
     mc_outfile o;
     mc_errinfo err;
@@ -409,7 +410,7 @@ static int write_html(const mc_summary *s, const char *html, int force)
         mc_cli_error(NULL, MC_EOPEN, html);
         return MC_EXIT_FAIL;
     }
-    rc = mc_study_html_write(f, s);
+    rc = mc_study_html_write(f, s, only);
     if (fclose(f) != 0 && rc == 0)
         rc = MC_EIO;
     if (rc == 0)
@@ -484,7 +485,7 @@ int mc_cmd_report(int argc, char **argv)
         return MC_EXIT_FAIL;
     }
     if (html) {
-        const int st = write_html(s, html, force);
+        const int st = write_html(s, only, html, force);
         mc_summary_free(s);
         return st;
     }

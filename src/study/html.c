@@ -4,7 +4,7 @@
 
 #include <errno.h>  /* errno */
 #include <stdio.h>  /* FILE, fopen, rename */
-#include <string.h> /* strerror */
+#include <string.h> /* strerror, strcmp */
 #include <unistd.h> /* getpid, unlink */
 
 #include <msgcensus/common.h> /* mc_version */
@@ -93,7 +93,13 @@ static void pop_anchor(mc_sbuf *b, const char *name)
     mc_sbuf_printf(b, "pop-%s", safe);
 }
 
-static void overview(mc_sbuf *b, const mc_summary *s)
+/* The population is on the page: all of them, or only @only. */
+static int shown(const mc_summary_pop *p, const char *only)
+{
+    return !only || strcmp(p->name, only) == 0;
+}
+
+static void overview(mc_sbuf *b, const mc_summary *s, const char *only)
 {
     char v[40], w[40], x[40];
     mc_sbuf_printf(b, "<section id=\"overview\"><h2>Populations</h2>\n<table>\n"
@@ -103,6 +109,8 @@ static void overview(mc_sbuf *b, const mc_summary *s)
                       "<th>MAD(best)</th><th>MAD(mean)/MAD(best)</th></tr>\n");
     for (size_t i = 0; i < s->npops; i++) {
         const mc_summary_pop *p = &s->pops[i];
+        if (!shown(p, only))
+            continue;
         mc_sbuf_printf(b, "<tr><td class=\"l\"><a href=\"#");
         pop_anchor(b, p->name);
         mc_sbuf_printf(b, "\">");
@@ -251,7 +259,7 @@ static void pop_tables(mc_sbuf *b, const mc_summary_pop *p)
     }
 }
 
-static void build_page(mc_sbuf *b, const mc_summary *s)
+static void build_page(mc_sbuf *b, const mc_summary *s, const char *only)
 {
     char cap[256];
     mc__run_caption(s, cap, sizeof cap);
@@ -276,10 +284,10 @@ static void build_page(mc_sbuf *b, const mc_summary *s)
                    "populations</a>%s</nav>\n</header>\n",
                    s->nedges ? "<a href=\"#matrix\">matrix</a>" : "");
     meta_table(b, s);
-    overview(b, s);
+    overview(b, s, only);
     for (size_t i = 0; i < s->npops; i++) {
         const mc_summary_pop *p = &s->pops[i];
-        if (p->stats.count == 0)
+        if (p->stats.count == 0 || !shown(p, only))
             continue;
         mc_sbuf_printf(b, "<section class=\"population\" id=\"");
         pop_anchor(b, p->name);
@@ -315,11 +323,11 @@ static void build_page(mc_sbuf *b, const mc_summary *s)
         mc_version());
 }
 
-int mc_study_html_write(FILE *out, const mc_summary *s)
+int mc_study_html_write(FILE *out, const mc_summary *s, const char *only)
 {
     mc_sbuf b;
     mc_sbuf_init(&b);
-    build_page(&b, s);
+    build_page(&b, s, only);
     if (b.oom) {
         mc_sbuf_free(&b);
         return MC_ENOMEM;
@@ -330,8 +338,8 @@ int mc_study_html_write(FILE *out, const mc_summary *s)
     return w == len && fflush(out) == 0 ? 0 : MC_EIO;
 }
 
-int mc_study_html_report(const mc_summary *s, const char *out_path,
-                         mc_errinfo *err)
+int mc_study_html_report(const mc_summary *s, const char *only,
+                         const char *out_path, mc_errinfo *err)
 {
     char tmp[1200];
     if (!s || !out_path)
@@ -346,7 +354,7 @@ int mc_study_html_report(const mc_summary *s, const char *out_path,
             err->sys_errno = e;
         return MC_EOPEN;
     }
-    int rc = mc_study_html_write(f, s);
+    int rc = mc_study_html_write(f, s, only);
     if (fclose(f) != 0 && rc == 0)
         rc = MC_EIO;
     if (rc == 0 && rename(tmp, out_path) != 0) {

@@ -97,13 +97,16 @@ int mc_study_compare(FILE *out, const mc_summary *const *runs,
  *  peaks, mixture) and the figures as inline SVG. No external resources
  *  of any kind. Written to a temporary name in the same directory and
  *  renamed, so a reader never sees half a page; an existing @out_path is
- *  replaced. @return 0, or MC_EOPEN / MC_EIO / MC_ENOMEM with @err filled. */
-int mc_study_html_report(const mc_summary *s, const char *out_path,
-                         mc_errinfo *err);
+ *  replaced. @only as for mc_study_html_write().
+ *  @return 0, or MC_EOPEN / MC_EIO / MC_ENOMEM with @err filled. */
+int mc_study_html_report(const mc_summary *s, const char *only,
+                         const char *out_path, mc_errinfo *err);
 
 /*! mc_study_html_write() : the same page into @out (which stays open).
+ *  With @only (not NULL) the overview and the sections show only the
+ *  population of that name; the run metadata and the matrix stay.
  *  @return 0, MC_EIO or MC_ENOMEM. */
-int mc_study_html_write(FILE *out, const mc_summary *s);
+int mc_study_html_write(FILE *out, const mc_summary *s, const char *only);
 
 /* ---- shareable copy ----------------------------------------------------- */
 

@@ -6,8 +6,12 @@
   csv   parses with Python's csv module, one value per row, and its values
         equal the summary's datasets read with h5py (Debian python3-h5py).
   json  parses with Python's json module and agrees with h5py likewise.
+  html  --html with --population shows that population's section and
+        overview row only (parsed with Python's html.parser); without it,
+        every non-empty population has its section.
 """
 import csv
+import html.parser
 import io
 import json
 import os
@@ -49,6 +53,46 @@ def test_text(path):
     assert one.count("== population") == 1
     r = run([CLI, "report", path, "--population", "nonesuch"], check=False)
     assert r.returncode == 1 and "no population 'nonesuch'" in r.stderr
+
+
+class Sections(html.parser.HTMLParser):
+    """Ids of the population sections and the overview's population links."""
+
+    def __init__(self):
+        super().__init__()
+        self.sections, self.links = [], []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "section" and "population" in (a.get("class") or ""):
+            self.sections.append(a["id"])
+        if tag == "a" and (a.get("href") or "").startswith("#pop-"):
+            self.links.append(a["href"][1:])
+
+
+def sections_of(page):
+    p = Sections()
+    with open(page, encoding="utf-8") as f:
+        p.feed(f.read())
+    return p
+
+
+def test_html(path):
+    d = os.path.dirname(path)
+    full = os.path.join(d, "all.html")
+    run([CLI, "report", path, "--html", full])
+    every = sections_of(full)
+    nonempty = [n for n, (st, _, _) in pops_of(path).items()
+                if int(st["count"]["exact"]) > 0]
+    assert len(every.sections) == len(nonempty) > 1, every.sections
+    one = os.path.join(d, "p2p.html")
+    run([CLI, "report", path, "--html", one, "--population", "p2p"])
+    only = sections_of(one)
+    assert len(only.sections) == 1, only.sections
+    assert only.sections[0] in every.sections
+    assert set(only.links) == {only.sections[0]}, only.links
+    print("html: %d population sections; with --population p2p only %s"
+          % (len(every.sections), only.sections[0]))
 
 
 def test_csv(path):
@@ -100,7 +144,8 @@ def test_json(path):
 def main():
     with tempfile.TemporaryDirectory() as tmp:
         path = make_summary(tmp)
-        {"text": test_text, "csv": test_csv, "json": test_json}[sys.argv[1]](path)
+        {"text": test_text, "csv": test_csv, "json": test_json,
+         "html": test_html}[sys.argv[1]](path)
     return 0
 
 
