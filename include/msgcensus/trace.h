@@ -18,8 +18,9 @@
 #define MC_TRACE_MAGIC "MCTRACE\x1a" /* 8 bytes at offset 0 */
 #define MC_TRACE_MAGIC_LEN 8
 #define MC_TRACE_VERSION_MAJOR 2 /* written by default */
-#define MC_TRACE_VERSION_MINOR 0 /* a reader accepts any minor of its majors   \
-                                  */
+#define MC_TRACE_VERSION_MINOR                                                 \
+    0 /* a reader accepts any minor of its majors                              \
+       */
 #define MC_TRACE_OLDEST_MAJOR                                                  \
     1 /* read: majors OLDEST..MAJOR, others rejected */
 #define MC_TRACE_ENDIAN_MARK 0x01020304u
@@ -202,6 +203,11 @@ MC_API const mc_trace_header *mc_trace_get_header(const mc_trace_reader *r);
 
 /*! mc_trace_file_size() : size of the file in bytes when it was opened. */
 MC_API uint64_t mc_trace_file_size(const mc_trace_reader *r);
+
+/*! mc_trace_reader_memory() : bytes the reader holds now: itself, its read
+ *  window, the decompressed and converted block buffers, the zstd context
+ *  and the block index. Bounded by the largest block, not by the file. */
+MC_API size_t mc_trace_reader_memory(const mc_trace_reader *r);
 
 /*! mc_trace_index() :
  *  The list of blocks. Uses the footer index when it is present and valid

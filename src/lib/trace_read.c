@@ -670,6 +670,15 @@ void mc_trace_current_block(const mc_trace_reader *r, uint64_t *block_index,
         *offset = r->cur_off;
 }
 
+size_t mc_trace_reader_memory(const mc_trace_reader *r)
+{
+    if (!r)
+        return 0;
+    return sizeof *r + r->win_cap + r->raw_cap + r->recs_cap +
+           (r->dctx ? ZSTD_sizeof_DCtx(r->dctx) : 0) +
+           (r->nfooter + r->nwalk) * sizeof(mc_block_info);
+}
+
 uint64_t mc_trace_current_checksum(const mc_trace_reader *r)
 {
     return r->cur_sum;

@@ -414,14 +414,17 @@ static int reduce_block(unit_ctx *c, const mc_record *recs, size_t n,
 }
 
 /* --max-memory: what this rank holds with the unit being read, looked at
- * every MC__MEM_CHECK_RECORDS records. */
+ * every MC__MEM_CHECK_RECORDS records: the accumulators, the unit's own
+ * state (combiner, peer map) and the reader's buffers. */
 static int unit_memory_check(const mc__progress *p, const unit_ctx *c,
-                             const char *path, mc_errinfo *err)
+                             const mc_trace_reader *r, const char *path,
+                             mc_errinfo *err)
 {
     mc__memuse u = {0, 0, 0, 0, 0};
     if (p->mem_base)
         u = *p->mem_base;
     mc__memuse_add_acc(&u, &c->ua);
+    u.bytes += sizeof *c + mc_trace_reader_memory(r);
     u.bytes += (uint64_t)c->peers.cap * sizeof *c->peers.s;
     u.edges += c->peers.n;
     return mc__memuse_check(p->mem_limit, u.bytes, &u, "reading", path, err);
@@ -535,7 +538,7 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
         if (!rc && prog->mem_limit &&
             (prog->mem_unchecked += n) >= MC__MEM_CHECK_RECORDS) {
             prog->mem_unchecked = 0;
-            rc = unit_memory_check(prog, c, path, err);
+            rc = unit_memory_check(prog, c, r, path, err);
         }
         if (rc)
             goto out;

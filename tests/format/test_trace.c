@@ -463,6 +463,31 @@ static void test_xxhash_matches_reference_values(void **state)
     assert_true(mc_trace_payload_checksum(3, "msgcensus", 9) == 0);
 }
 
+/* The reader's memory is its buffers: at least one raw block once a zstd
+ * block is decoded, and bounded by the file (window) plus two blocks, the
+ * zstd context and the index, not by the number of blocks read. */
+static void test_reader_memory_is_bounded_by_a_block(void **state)
+{
+    (void)state;
+    const char *p = tpath("mem.mct");
+    write_trace(p, 20000, MC_CODEC_ZSTD, 1000, 1);
+    mc_trace_reader *r = NULL;
+    assert_int_equal(mc_trace_open(p, &r, NULL), 0);
+    const size_t at_open = mc_trace_reader_memory(r);
+    assert_true(at_open > 0);
+    const mc_record *recs;
+    size_t n, most = 0;
+    while (mc_trace_next_block(r, &recs, &n, NULL) == 1) {
+        const size_t m = mc_trace_reader_memory(r);
+        most = m > most ? m : most;
+    }
+    assert_true(most >= at_open + 1000 * MC_RECORD_SIZE);
+    assert_true(most <= mc_trace_file_size(r) + 2 * 1000 * MC_RECORD_SIZE +
+                            (1u << 20) + 20 * sizeof(mc_block_info));
+    mc_trace_close(r);
+    assert_int_equal(mc_trace_reader_memory(NULL), 0);
+}
+
 /* ---- round trips -------------------------------------------------------- */
 
 static void roundtrip(mc_codec codec, const char *name)
@@ -1029,6 +1054,7 @@ int main(void)
         cmocka_unit_test(test_record_bytes_match_spec),
         cmocka_unit_test(test_block_bytes_match_spec),
         cmocka_unit_test(test_both_majors_read_and_checksums_differ),
+        cmocka_unit_test(test_reader_memory_is_bounded_by_a_block),
         cmocka_unit_test(test_footer_bytes_match_spec),
         cmocka_unit_test(test_xxhash_matches_reference_values),
         cmocka_unit_test(test_roundtrip_every_field_uncompressed),
