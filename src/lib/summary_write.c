@@ -3,9 +3,11 @@
 #include "summary_internal.h"
 
 #include <errno.h>    /* errno */
+#include <fcntl.h>    /* open */
 #include <stdlib.h>   /* calloc, free */
 #include <string.h>   /* strlen, memcpy */
 #include <sys/stat.h> /* stat: refuse an existing target */
+#include <unistd.h>   /* write, fsync, close, unlink */
 
 /* Rows per chunk of the 1-D datasets; chunks of at most this many rows keep
  * small datasets small and large ones compressible. */
@@ -394,6 +396,46 @@ out:
     return rc;
 }
 
+/* Write the finished file image to @path, created here (it must not
+ * exist), and make it durable. On failure nothing is left at @path. */
+static int write_image(const char *path, const unsigned char *img, size_t len,
+                       mc_errinfo *err)
+{
+    const int fd = open(path, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
+    if (fd < 0) {
+        const int e = errno;
+        mc_errinfo_set(err, e == EEXIST ? MC_EEXIST : MC_EOPEN, path, -1, -1,
+                       "cannot create file");
+        if (err)
+            err->sys_errno = e;
+        return e == EEXIST ? MC_EEXIST : MC_EOPEN;
+    }
+    size_t done = 0;
+    int e = 0;
+    while (done < len) {
+        const ssize_t k = write(fd, img + done, len - done);
+        if (k < 0 && errno == EINTR)
+            continue;
+        if (k <= 0) {
+            e = k < 0 ? errno : EIO;
+            break;
+        }
+        done += (size_t)k;
+    }
+    if (!e && fsync(fd) != 0)
+        e = errno;
+    if (close(fd) != 0 && !e)
+        e = errno;
+    if (!e)
+        return 0;
+    unlink(path);
+    mc_errinfo_set(err, MC_EIO, path, -1, -1,
+                   "write failed after %zu of %zu bytes", done, len);
+    if (err)
+        err->sys_errno = e;
+    return MC_EIO;
+}
+
 int mc_summary_write(const char *path, const mc_summary *s, mc_errinfo *err)
 {
     if (!path || !s)
@@ -411,19 +453,29 @@ int mc_summary_write(const char *path, const mc_summary *s, mc_errinfo *err)
     wctx w = {path, err, 0};
     int rc = 0;
     hid_t f = -1, pops = -1;
+    unsigned char *img = NULL;
+    ssize_t len = 0;
     const hid_t fcpl = H5Pcreate(H5P_FILE_CREATE);
     if (fcpl >= 0)
         H5Pset_link_creation_order(fcpl, H5P_CRT_ORDER_TRACKED |
                                              H5P_CRT_ORDER_INDEXED);
-    f = H5Fcreate(path, H5F_ACC_EXCL, fcpl >= 0 ? fcpl : H5P_DEFAULT,
-                  H5P_DEFAULT);
+    /* HDF5 builds the file in memory (the core driver without a backing
+     * store) and write_image() puts it on disk. A full disk or an I/O error
+     * is then a write() of ours that fails with errno, never a failed
+     * H5Fclose(): that leaves the file open inside HDF5, which then
+     * crashed at MPI_Finalize (seen on a full tmpfs). The image costs
+     * memory of the size of the file, which is compressed and small next
+     * to the histograms it was made from. */
+    const hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
+    if (fapl >= 0 && H5Pset_fapl_core(fapl, (size_t)1 << 20, 0) >= 0)
+        f = H5Fcreate(path, H5F_ACC_EXCL, fcpl >= 0 ? fcpl : H5P_DEFAULT, fapl);
     if (fcpl >= 0)
         H5Pclose(fcpl);
+    if (fapl >= 0)
+        H5Pclose(fapl);
     if (f < 0) {
-        const int e = errno;
-        rc = mc_errinfo_set(err, MC_EHDF5, path, -1, -1, "cannot create file");
-        if (err)
-            err->sys_errno = e;
+        rc = mc_errinfo_set(err, MC_EHDF5, path, -1, -1,
+                            "cannot create the file in memory");
         goto out;
     }
     rc = write_meta(&w, f, &s->meta);
@@ -440,11 +492,26 @@ int mc_summary_write(const char *path, const mc_summary *s, mc_errinfo *err)
         rc = rc ? rc : write_ranks(&w, f, s);
     if (!(s->omitted & MC_OMIT_MATRIX))
         rc = rc ? rc : write_matrix(&w, f, s);
+    if (pops >= 0) {
+        H5Gclose(pops);
+        pops = -1;
+    }
+    if (!rc && H5Fflush(f, H5F_SCOPE_GLOBAL) < 0)
+        rc = fail(&w, "file (flush)");
+    if (!rc && (len = H5Fget_file_image(f, NULL, 0)) <= 0)
+        rc = fail(&w, "file (image size)");
+    if (!rc && !(img = malloc((size_t)len)))
+        rc = mc_errinfo_set(err, MC_ENOMEM, path, -1, -1, "file image");
+    if (!rc && H5Fget_file_image(f, img, (size_t)len) != len)
+        rc = fail(&w, "file (image)");
 out:
     if (pops >= 0)
         H5Gclose(pops);
     if (f >= 0 && H5Fclose(f) < 0 && !rc)
         rc = fail(&w, "file (close)");
     H5Eset_auto2(H5E_DEFAULT, old_fn, old_data);
+    if (!rc)
+        rc = write_image(path, img, (size_t)len, err);
+    free(img);
     return rc;
 }

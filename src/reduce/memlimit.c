@@ -52,8 +52,12 @@ uint64_t mc__memuse_build(const mc__acc *a)
     /* 16 bytes per entry for a sorted (size, count) array. Each key: its
      * own view and copy (32), its copies in up to two groups (32); then one
      * group at a time: a table as large as all key tables together and its
-     * sorted view. Per-communicator populations: view and copy. */
-    return 64u * u.sizes + table + 16u * u.sizes + 32u * u.comm_sizes;
+     * sorted view. Per-communicator populations: view and copy. Then the
+     * file's image in memory (mc_summary_write): at most the uncompressed
+     * histograms of every population (48 per key entry, 16 per
+     * communicator entry) and 1 MiB for the rest of the file. */
+    return 64u * u.sizes + table + 16u * u.sizes + 32u * u.comm_sizes +
+           48u * u.sizes + 16u * u.comm_sizes + (1u << 20);
 }
 
 /* "301.25 MiB" style: two decimals, so a need just above the limit

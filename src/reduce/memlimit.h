@@ -34,7 +34,8 @@ void mc__memuse_add(mc__memuse *u, const mc__memuse *v);
  *  build the summary from the merged @a, on top of what @a holds: the
  *  sorted view and the copy of every population (each (operation,
  *  direction) key appears in its own population and in at most two
- *  groups), and the largest group histogram while it is built. */
+ *  groups), the largest group histogram while it is built, and the
+ *  HDF5 file's image before it is written. */
 uint64_t mc__memuse_build(const mc__acc *a);
 
 /*! mc__memuse_check() :
