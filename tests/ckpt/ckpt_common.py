@@ -108,9 +108,15 @@ def start(argv, log):
 
 
 def kill9(proc, logf, marker):
-    """SIGKILL mpirun's process group, then every remaining process of the
-    job by id (Open MPI may start ranks in their own group); wait until no
+    """SIGKILL the job's ranks (the processes with MARKER on their command
+    line) at once, then mpirun's process group, then whatever of the job is
+    left (Open MPI may start ranks in their own group); wait until no
     process with MARKER on its command line is left."""
+    for pid in _job_pids(marker):
+        try:
+            os.kill(pid, signal.SIGKILL)
+        except ProcessLookupError:
+            pass
     try:
         os.killpg(proc.pid, signal.SIGKILL)
     except ProcessLookupError:
