@@ -228,6 +228,9 @@ static int push_sum(mc__unit_result *res, size_t *cap, uint64_t sum)
  * 2^64, so every table ends up exactly as with one update per record. */
 #define COMB_BITS 9u
 #define COMB_SLOTS (1u << COMB_BITS)
+/* A kp no record has: op keys are far below 2^32 - 1. */
+#define COMB_NO_KEY UINT64_MAX
+_Static_assert(MC__NOPKEYS < 0xffffffffu, "op keys below COMB_NO_KEY");
 
 typedef struct comb_slot {
     uint64_t size;
@@ -243,7 +246,7 @@ static inline size_t comb_index(uint64_t size, uint64_t kp)
 
 /* Unit-local state; freed at the end of mc__unit_reduce. */
 typedef struct unit_ctx {
-    comb_slot comb[COMB_SLOTS]; /* all zero: key 0 is no valid op */
+    comb_slot comb[COMB_SLOTS]; /* kp = COMB_NO_KEY until first taken */
     mc__acc ua;
     peermap peers;
     mc__row row;
@@ -485,6 +488,8 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
         return mc_errinfo_set(err, MC_ENOMEM, path, -1, -1, "unit");
     mc__acc_init(&c->ua);
     c->per_comm = per_comm;
+    for (size_t i = 0; i < COMB_SLOTS; i++)
+        c->comb[i].kp = COMB_NO_KEY;
     c->row.rank = f->app_rank;
     fill_categories(c->cat);
 
