@@ -251,7 +251,8 @@ MC_API void mc_trace_current_block(const mc_trace_reader *r,
 
 /*! mc_trace_current_checksum() : the payload checksum of the block
  *  returned last, as stored in its header and verified against the
- *  records (mc_trace_payload_checksum() of the file's major). */
+ *  records (mc_trace_payload_checksum() of the file's major); 0 when the
+ *  last mc_trace_next_block() returned no block. */
 MC_API uint64_t mc_trace_current_checksum(const mc_trace_reader *r);
 
 /* ---- whole-file check --------------------------------------------------- */

@@ -549,6 +549,7 @@ int mc_trace_next_block(mc_trace_reader *r, const mc_record **recs,
     const int64_t bi = (int64_t)r->next_index;
     r->cur_off = off;
     r->cur_index = r->next_index;
+    r->cur_sum = 0;
     *recs = NULL;
     *nrecs = 0;
     if (off >= r->file_size ||
