@@ -22,7 +22,7 @@ export OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
 out=$src/docs/performance.md
 tmp=$(mktemp -d)
 trap 'rm -rf "$tmp"' EXIT
-if [ "$QUICK" = 1 ]; then SIZE=256MiB; BIG=1GiB; RUNS=3; SYNTH=512MiB; else SIZE=1GiB; BIG=8GiB; RUNS=5; SYNTH=2GiB; fi
+if [ "$QUICK" = 1 ]; then SIZE=256MiB; BIG=1GiB; RUNS=3; SYNTH=512MiB; else SIZE=1GiB; BIG=8GiB; RUNS=7; SYNTH=2GiB; fi
 
 section() { # title, command...
   local title=$1; shift

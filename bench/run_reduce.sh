@@ -58,6 +58,20 @@ reduce_secs() {
 }
 rate() { echo "$1 / $2 / 1048576" | bc -l | xargs printf '%.0f'; } # MiB/s
 runs() { local i; for i in $(seq "$RUNS"); do "$@"; done; }
+# rounds FILE CMD...: RUNS rounds; in each, every CMD (one shell string each)
+# runs once, in turn, and appends its time to FILE.k (k = its position).
+# Interleaving keeps a change in the machine's load from landing on one
+# of the figures a ratio is made of.
+rounds() {
+    local out=$1 i k c; shift
+    for i in $(seq "$RUNS"); do
+        k=0
+        for c in "$@"; do
+            eval "$c" >>"$out.$k"
+            k=$((k + 1))
+        done
+    done
+}
 
 echo "# run_reduce.sh on $(hostname), $(nproc) cores, $(date -u +%FT%TZ)"
 echo "# load average at start: $(cut -d' ' -f1-3 /proc/loadavg)"
@@ -73,13 +87,17 @@ echo "# campaign: 8 files, $RECORDS records, $BYTES bytes uncompressed, $ZBYTES 
 cat "$WORK"/unc/*.mct "$WORK"/zst/*.mct >/dev/null # into the page cache
 
 # ---- uncompressed: cat vs 1 and 2 reducer ranks -------------------------
-T_CAT=$(runs time_cmd sh -c "cat $WORK/unc/*.mct > /dev/null" | median)
-T_R1=$(runs reduce_secs 0 "$WORK/unc" | median)
-T_R2=$(runs reduce_secs 2 "$WORK/unc" | median)
+rm -f "$WORK"/t.*
+rounds "$WORK/t" "time_cmd sh -c 'cat $WORK/unc/*.mct > /dev/null'" \
+    "reduce_secs 0 $WORK/unc" "reduce_secs 2 $WORK/unc"
+T_CAT=$(median <"$WORK/t.0")
+T_R1=$(median <"$WORK/t.1")
+T_R2=$(median <"$WORK/t.2")
 W_R1=$(runs time_cmd sh -c "rm -f $WORK/w.h5; $CLI reduce -q $WORK/unc -o $WORK/w.h5" | median)
 W_R2=$(runs time_cmd sh -c "rm -f $WORK/w.h5; $MPIRUN -np 2 $CLI reduce -q $WORK/unc -o $WORK/w.h5" | median)
 echo
-echo "uncompressed ($RUNS runs, medians; reducer time excludes MPI start-up, wall time includes it)"
+echo "uncompressed ($RUNS rounds of cat, 1 rank, 2 ranks in turn; medians; reducer time excludes MPI"
+echo "start-up, wall time includes it)"
 printf '  %-28s %8.3f s %7s MiB/s\n' "cat > /dev/null" "$T_CAT" "$(rate "$BYTES" "$T_CAT")"
 printf '  %-28s %8.3f s %7s MiB/s  (%.0f %% of cat)   wall %.3f s\n' "reduce, 1 rank" "$T_R1" \
     "$(rate "$BYTES" "$T_R1")" "$(echo "100 * $T_CAT / $T_R1" | bc -l)" "$W_R1"
@@ -88,11 +106,15 @@ printf '  %-28s %8.3f s %7s MiB/s  (%.2fx one rank)    wall %.3f s\n' "reduce, 2
 
 # ---- zstd: reduce vs zstd -dc of the same records -----------------------
 cat "$WORK"/unc/*.mct | zstd -q -3 -T1 -c >"$WORK/all.zst"
-T_ZCAT=$(runs time_cmd sh -c "zstd -q -dc -T1 $WORK/all.zst > /dev/null" | median)
-T_Z1=$(runs reduce_secs 0 "$WORK/zst" | median)
-T_Z2=$(runs reduce_secs 2 "$WORK/zst" | median)
+rm -f "$WORK"/z.*
+rounds "$WORK/z" "time_cmd sh -c 'zstd -q -dc -T1 $WORK/all.zst > /dev/null'" \
+    "reduce_secs 0 $WORK/zst" "reduce_secs 2 $WORK/zst"
+T_ZCAT=$(median <"$WORK/z.0")
+T_Z1=$(median <"$WORK/z.1")
+T_Z2=$(median <"$WORK/z.2")
+rm -f "$WORK"/t.* "$WORK"/z.*
 echo
-echo "zstd blocks (rates in uncompressed bytes/s)"
+echo "zstd blocks (rates in uncompressed bytes/s; interleaved rounds as above)"
 printf '  %-28s %8.3f s %7s MiB/s\n' "zstd -dc (one stream, -3)" "$T_ZCAT" "$(rate "$BYTES" "$T_ZCAT")"
 printf '  %-28s %8.3f s %7s MiB/s  (%.0f %% of zstd -dc)\n' "reduce, 1 rank" "$T_Z1" \
     "$(rate "$BYTES" "$T_Z1")" "$(echo "100 * $T_ZCAT / $T_Z1" | bc -l)"
