@@ -1,13 +1,14 @@
 /* summary_write.c - write a summary model to an HDF5 file (serial HDF5,
  * layout v1 of docs/summary-format.md). */
 #include "summary_internal.h"
+#include "fdio.h" /* mc__write_all */
 
 #include <errno.h>    /* errno */
 #include <fcntl.h>    /* open */
 #include <stdlib.h>   /* calloc, free */
 #include <string.h>   /* strlen, memcpy */
 #include <sys/stat.h> /* stat: refuse an existing target */
-#include <unistd.h>   /* write, fsync, close, unlink */
+#include <unistd.h>   /* fsync, close, unlink */
 
 /* Rows per chunk of the 1-D datasets; chunks of at most this many rows keep
  * small datasets small and large ones compressible. */
@@ -411,17 +412,7 @@ static int write_image(const char *path, const unsigned char *img, size_t len,
         return e == EEXIST ? MC_EEXIST : MC_EOPEN;
     }
     size_t done = 0;
-    int e = 0;
-    while (done < len) {
-        const ssize_t k = write(fd, img + done, len - done);
-        if (k < 0 && errno == EINTR)
-            continue;
-        if (k <= 0) {
-            e = k < 0 ? errno : EIO;
-            break;
-        }
-        done += (size_t)k;
-    }
+    int e = mc__write_all(fd, img, len, &done);
     if (!e && fsync(fd) != 0)
         e = errno;
     if (close(fd) != 0 && !e)

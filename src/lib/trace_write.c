@@ -1,14 +1,15 @@
 /* trace_write.c - the block writer of the trace format (2.0, or 1.0 on
  * request): bounded buffers, optional zstd, footer index. */
 #include "trace_internal.h"
+#include "fdio.h" /* mc__write_all */
 
-#include <errno.h>  /* errno, EINTR */
+#include <errno.h>  /* errno */
 #include <fcntl.h>  /* open, O_* */
 #include <stdlib.h> /* malloc, realloc, free */
 #include <string.h> /* memcpy */
-#include <unistd.h> /* write, close, fsync */
+#include <unistd.h> /* close, fsync */
 
-#include <xxhash.h> /* XXH64 */
+#include <xxhash.h> /* XXH32, XXH64 (footer) */
 #include <zstd.h>   /* ZSTD_CCtx, ZSTD_compress2 */
 
 struct mc_trace_writer {
@@ -40,27 +41,21 @@ void mc_writer_opts_init(mc_writer_opts *opts)
     opts->format_major = MC_TRACE_VERSION_MAJOR;
 }
 
-/* Write all of @len bytes, retrying after signals and short writes. */
+/* Write all of @len bytes at the writer's offset. */
 static int write_all(mc_trace_writer *w, const unsigned char *p, size_t len,
                      int64_t block, mc_errinfo *err)
 {
     const uint64_t at = w->offset;
-    while (len > 0) {
-        const ssize_t k = write(w->fd, p, len);
-        if (k < 0) {
-            if (errno == EINTR)
-                continue;
-            if (err)
-                err->sys_errno = errno;
-            w->failed = 1;
-            return mc_errinfo_set(err, MC_EIO, w->path, block, (int64_t)at,
-                                  "write failed");
-        }
-        p += k;
-        len -= (size_t)k;
-        w->offset += (uint64_t)k;
-    }
-    return 0;
+    size_t done = 0;
+    const int e = mc__write_all(w->fd, p, len, &done);
+    w->offset += (uint64_t)done;
+    if (!e)
+        return 0;
+    if (err)
+        err->sys_errno = e;
+    w->failed = 1;
+    return mc_errinfo_set(err, MC_EIO, w->path, block, (int64_t)at,
+                          "write failed");
 }
 
 static void writer_free(mc_trace_writer *w)
