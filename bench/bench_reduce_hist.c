@@ -1,9 +1,10 @@
 /* bench_reduce_hist.c - ways to turn records into per-(op, dir)
  * histograms: one mc_hist_add() per record; per block a counting sort by
  * key and one mc_hist_add_sizes() batch per key; and a small direct-mapped
- * combiner of (key, size, peer) counts flushed with mc_hist_add(..., n),
- * the scheme src/reduce/accum.c uses (there it also feeds the totals row
- * and the send matrix). All three must give identical histograms.
+ * combiner of (key, size, peer) counts flushed with mc_hist_add(..., n):
+ * the reducer's own loop from src/reduce/combiner.h, record checks
+ * included (the other two do not check records). All three must give
+ * identical histograms.
  * Usage: bench_reduce_hist TRACE.mct */
 #include <stdio.h>  /* printf */
 #include <stdlib.h> /* malloc */
@@ -13,6 +14,8 @@
 #include <msgcensus/hist.h>
 #include <msgcensus/ops.h>
 #include <msgcensus/trace.h>
+
+#include "combiner.h" /* src/reduce: the reducer's record loop */
 
 #define NKEYS ((MC_OP_MAX_CODE + 1u) * 3u)
 
@@ -65,6 +68,8 @@ static double run_batched(const blocks *b, mc_hist **h)
         const size_t n = b->len[i];
         size_t nt = 0;
         for (size_t j = 0; j < n; j++) {
+            if (r[j].flags & MC_RF_PER_PEER) /* as the reducer */
+                continue;
             const unsigned k = (unsigned)r[j].op * 3u + r[j].dir;
             key[j] = (uint16_t)k;
             if (cnt[k]++ == 0)
@@ -76,7 +81,8 @@ static double run_batched(const blocks *b, mc_hist **h)
             at += cnt[touched[t]];
         }
         for (size_t j = 0; j < n; j++)
-            sizes[pos[key[j]]++] = r[j].bytes;
+            if (!(r[j].flags & MC_RF_PER_PEER))
+                sizes[pos[key[j]]++] = r[j].bytes;
         for (size_t t = 0; t < nt; t++) {
             const unsigned k = touched[t];
             mc_hist_add_sizes(h[k], sizes + (pos[k] - cnt[k]), cnt[k], NULL);
@@ -95,42 +101,49 @@ static double run_per_record(const blocks *b, mc_hist **h)
     for (size_t i = 0; i < b->n; i++) {
         const mc_record *r = b->recs[i];
         for (size_t j = 0; j < b->len[i]; j++)
-            mc_hist_add(h[(unsigned)r[j].op * 3u + r[j].dir], r[j].bytes, 1);
+            if (!(r[j].flags & MC_RF_PER_PEER))
+                mc_hist_add(h[(unsigned)r[j].op * 3u + r[j].dir], r[j].bytes,
+                            1);
     }
     return now() - t0;
 }
 
-#define COMB_BITS 9u /* as src/reduce/accum.c */
+/* The reducer's own record loop (src/reduce/combiner.h), flushing into
+ * the histograms only; the reducer also feeds the totals row and the send
+ * matrix from the same flush. */
+typedef struct comb_ctx {
+    mc_hist **h;
+} comb_ctx;
 
-typedef struct comb_slot {
-    uint64_t size, kp, n;
-} comb_slot;
+static int comb_miss(void *ctx, mc__comb_slot *s, uint64_t size, uint64_t kp)
+{
+    mc_hist **h = ((comb_ctx *)ctx)->h;
+    if (s->n && mc_hist_add(h[s->kp & 0xffffffffu], s->size, s->n) != 0)
+        return -1;
+    s->size = size;
+    s->kp = kp;
+    s->n = 1;
+    return 0;
+}
 
 static double run_combined(const blocks *b, mc_hist **h)
 {
-    static comb_slot comb[1u << COMB_BITS];
-    memset(comb, 0, sizeof comb);
+    static mc__comb_slot comb[MC__COMB_SLOTS];
+    static uint16_t keys[MC__REC_KEYS_LEN];
+    comb_ctx ctx = {h};
+    mc__comb_init(comb);
+    mc__rec_keys_init(keys);
     const double t0 = now();
     for (size_t i = 0; i < b->n; i++) {
-        const mc_record *r = b->recs[i];
-        for (size_t j = 0; j < b->len[i]; j++) {
-            const uint64_t kp = ((unsigned)r[j].op * 3u + r[j].dir) |
-                                (uint64_t)(uint32_t)r[j].peer << 32;
-            const uint64_t x = r[j].bytes ^ (kp * 0xC2B2AE3D27D4EB4Full);
-            comb_slot *c =
-                &comb[(x * 0x9E3779B97F4A7C15ull) >> (64u - COMB_BITS)];
-            if (c->size == r[j].bytes && c->kp == kp) {
-                c->n++;
-            } else {
-                if (c->n)
-                    mc_hist_add(h[c->kp & 0xffffffffu], c->size, c->n);
-                c->size = r[j].bytes;
-                c->kp = kp;
-                c->n = 1;
-            }
+        size_t stop = 0;
+        if (mc__comb_count(comb, keys, b->recs[i], 0, b->len[i], &stop,
+                           comb_miss, &ctx) != 0 ||
+            stop != b->len[i]) {
+            fprintf(stderr, "bench_reduce_hist: invalid record or no memory\n");
+            exit(1);
         }
     }
-    for (size_t i = 0; i < (1u << COMB_BITS); i++)
+    for (size_t i = 0; i < MC__COMB_SLOTS; i++)
         if (comb[i].n)
             mc_hist_add(h[comb[i].kp & 0xffffffffu], comb[i].size, comb[i].n);
     return now() - t0;

@@ -2,6 +2,7 @@
  * histograms, per-rank totals, the send matrix and per-communicator
  * histograms, with memory bounded by the number of distinct keys. */
 #include "reduce_internal.h"
+#include "combiner.h" /* the record loop */
 #include "memlimit.h" /* --max-memory accounting */
 
 #include <stdio.h>  /* snprintf */
@@ -218,35 +219,13 @@ static int push_sum(mc__unit_result *res, size_t *cap, uint64_t sum)
     return 0;
 }
 
-/* ---- unit-local combiner -------------------------------------------------
- * Counts records by (op key, size, peer) in a small direct-mapped table
- * that stays in L1: a record costs a hash, one compare and one increment.
- * A triple leaves its slot when another one takes it, and at the end of
- * the unit; only then does it go into its histogram, the rank's totals row
- * and the send matrix, as n messages of its size. The histograms are exact
- * and additions commute, and n * size equals n additions of size modulo
- * 2^64, so every table ends up exactly as with one update per record. */
-#define COMB_BITS 9u
-#define COMB_SLOTS (1u << COMB_BITS)
-/* A kp no record has: op keys are far below 2^32 - 1. */
-#define COMB_NO_KEY UINT64_MAX
-_Static_assert(MC__NOPKEYS < 0xffffffffu, "op keys below COMB_NO_KEY");
-
-typedef struct comb_slot {
-    uint64_t size;
-    uint64_t kp; /* op key in the low 32 bits, peer (as u32) in the high */
-    uint64_t n;  /* 0 = nothing pending */
-} comb_slot;
-
-static inline size_t comb_index(uint64_t size, uint64_t kp)
-{
-    const uint64_t x = size ^ (kp * 0xC2B2AE3D27D4EB4Full);
-    return (size_t)((x * 0x9E3779B97F4A7C15ull) >> (64u - COMB_BITS));
-}
+/* ---- unit-local combiner (combiner.h) ---------------------------------- */
+_Static_assert(MC__NDIRS == MC__COMB_NDIRS, "op keys as in combiner.h");
 
 /* Unit-local state; freed at the end of mc__unit_reduce. */
 typedef struct unit_ctx {
-    comb_slot comb[COMB_SLOTS]; /* kp = COMB_NO_KEY until first taken */
+    mc__comb_slot comb[MC__COMB_SLOTS]; /* kp = MC__COMB_NO_KEY at first */
+    uint16_t keys[MC__REC_KEYS_LEN];    /* op key + 1 by (op, dir) */
     mc__acc ua;
     peermap peers;
     mc__row row;
@@ -254,11 +233,12 @@ typedef struct unit_ctx {
     int per_comm;
     uint32_t last_comm;
     mc_hist *last_comm_hist;
+    const char *what; /* the table a failed miss names */
 } unit_ctx;
 
 /* Move one pending triple into the histogram, the totals row and the
  * matrix. @what names the table that failed. */
-static int comb_flush_slot(unit_ctx *c, comb_slot *s, const char **what)
+static int comb_flush_slot(unit_ctx *c, mc__comb_slot *s, const char **what)
 {
     if (!s->n)
         return 0;
@@ -297,7 +277,7 @@ static int comb_flush_slot(unit_ctx *c, comb_slot *s, const char **what)
 
 static int comb_flush(unit_ctx *c, const char **what)
 {
-    for (size_t i = 0; i < COMB_SLOTS; i++) {
+    for (size_t i = 0; i < MC__COMB_SLOTS; i++) {
         const int rc = comb_flush_slot(c, &c->comb[i], what);
         if (rc)
             return rc;
@@ -305,17 +285,18 @@ static int comb_flush(unit_ctx *c, const char **what)
     return 0;
 }
 
-/* The slot @s holds another triple: flush it and take it for this one,
- * creating the op key's histogram on first use. */
-static int comb_take(unit_ctx *c, comb_slot *s, uint64_t size, uint64_t kp,
-                     const char **what)
+/* mc__comb_miss_fn: the slot @s holds another triple (or none): flush it
+ * and take it for this one, creating the op key's histogram on first use.
+ * c->what names the table that failed. */
+static int comb_miss(void *ctx, mc__comb_slot *s, uint64_t size, uint64_t kp)
 {
-    int rc = comb_flush_slot(c, s, what);
+    unit_ctx *c = ctx;
+    int rc = comb_flush_slot(c, s, &c->what);
     if (rc)
         return rc;
     mc_hist **h = &c->ua.op[kp & 0xffffffffu];
     if (!*h && (rc = mc_hist_create(h)) != 0) {
-        *what = "histogram";
+        c->what = "histogram";
         return rc;
     }
     s->size = size;
@@ -356,33 +337,17 @@ static int reduce_comms(unit_ctx *c, const mc_record *recs, size_t i0,
 }
 
 /* Reduce recs[i0..n) up to the first invalid record: *stop is its index,
- * or n when every record is valid. The check is inlined here rather than
- * done in a pass of its own: one pass over the block instead of two. */
+ * or n when every record is valid. The check is made in the counting loop
+ * (combiner.h) rather than in a pass of its own: one pass over the block
+ * instead of two. */
 static int reduce_valid(unit_ctx *c, const mc_record *recs, size_t i0, size_t n,
                         size_t *stop, const char **what)
 {
-    const unsigned char *known = mc_op_known_table();
-    size_t i;
-    int rc = 0;
-    for (i = i0; i < n; i++) {
-        const mc_record *r = &recs[i];
-        if (!mc_record_valid(r, known))
-            break;
-        if (!counted(r))
-            continue;
-        const uint64_t kp = ((unsigned)r->op * MC__NDIRS + r->dir) |
-                            (uint64_t)(uint32_t)r->peer << 32;
-        comb_slot *s = &c->comb[comb_index(r->bytes, kp)];
-        /* A slot left behind by a flush (n == 0) may match: its histogram
-         * exists, and counting from 0 is right. */
-        if (s->size == r->bytes && s->kp == kp) {
-            s->n++;
-        } else if ((rc = comb_take(c, s, r->bytes, kp, what)) != 0) {
-            break;
-        }
-    }
-    *stop = i;
-    if (!rc && c->per_comm && (rc = reduce_comms(c, recs, i0, i)) != 0)
+    c->what = "histogram";
+    int rc = mc__comb_count(c->comb, c->keys, recs, i0, n, stop, comb_miss, c);
+    if (rc)
+        *what = c->what;
+    else if (c->per_comm && (rc = reduce_comms(c, recs, i0, *stop)) != 0)
         *what = "communicator histogram";
     return rc;
 }
@@ -488,8 +453,8 @@ int mc__unit_reduce(const mc__plan *plan, const mc__unit *u,
         return mc_errinfo_set(err, MC_ENOMEM, path, -1, -1, "unit");
     mc__acc_init(&c->ua);
     c->per_comm = per_comm;
-    for (size_t i = 0; i < COMB_SLOTS; i++)
-        c->comb[i].kp = COMB_NO_KEY;
+    mc__comb_init(c->comb);
+    mc__rec_keys_init(c->keys);
     c->row.rank = f->app_rank;
     fill_categories(c->cat);
 
