@@ -7,7 +7,7 @@ set -euo pipefail
 build_pkgs=(build-essential cmake pkg-config libopenmpi-dev openmpi-bin
             libhdf5-openmpi-dev hdf5-tools libzstd-dev zstd libxxhash-dev xxhash)
 test_pkgs=(libcmocka-dev libgsl-dev python3 python3-numpy python3-scipy python3-h5py
-           clang libclang-rt-14-dev time chromium fonts-liberation
+           clang libclang-rt-14-dev time chromium fonts-liberation gfortran
            slurmctld slurmd slurm-client munge slurm-wlm-torque netpipe-openmpi)
 
 want=("${build_pkgs[@]}")

@@ -73,7 +73,11 @@ void *mc__tap_scratch(int slot, size_t bytes);
 #define MC_TAP_SCRATCH_HANDLES 1
 #define MC_TAP_SCRATCH_SLOTS 2
 #define MC_TAP_SCRATCH_TOPO 3
-#define MC_TAP_SCRATCH_N 4
+#define MC_TAP_SCRATCH_F_REQS 4   /* tap_fortran.c: C requests */
+#define MC_TAP_SCRATCH_F_STATUS 5 /* tap_fortran.c: C statuses */
+#define MC_TAP_SCRATCH_F_STYPES 6 /* tap_fortran_coll.c: send types */
+#define MC_TAP_SCRATCH_F_RTYPES 7 /* tap_fortran_coll.c: receive types */
+#define MC_TAP_SCRATCH_N 8
 
 /* Payload bytes of @count elements of @dt: count x MPI_Type_size (the data,
  * not the extent). 0 for count <= 0 or a null datatype, so that arguments a

@@ -26,6 +26,7 @@ static int failed_once; /* the one stderr line has been printed */
 static int finished;    /* the trace is closed */
 static int paused;      /* MPI_Pcontrol(0) */
 static int exit_hook;   /* atexit handler installed */
+static int init_seen;   /* MPI_Init(_thread) passed through the tap */
 static char trace_path[PATH_MAX];
 
 static MC_TAP_TLS void *scratch[MC_TAP_SCRATCH_N];
@@ -225,10 +226,32 @@ static void tap_start(int provided)
     mc__tap_on = 1;
 }
 
+/* A program that initialised MPI past the tap (the mpi_f08 Fortran module
+ * does: its bindings call PMPI_Init directly) would end without a trace
+ * and without a word. At unload, say so once. The tap's destructor runs
+ * before libmpi's (the tap depends on it), and MPI_Initialized and
+ * MPI_Finalized may be called at any time, also after MPI_Finalize
+ * (MPI-4.0 11.2.1, from memory). */
+#if defined(__GNUC__)
+__attribute__((destructor)) static void tap_unseen_init(void)
+{
+    if (init_seen || env_flag("MSGCENSUS_TAP_OFF"))
+        return;
+    int ini = 0, fin = 0;
+    if (PMPI_Initialized(&ini) != MPI_SUCCESS ||
+        PMPI_Finalized(&fin) != MPI_SUCCESS || !(ini || fin))
+        return;
+    fprintf(stderr, "msgcensus-tap: this process started MPI without passing "
+                    "through the tap (as the mpi_f08 Fortran module does); "
+                    "nothing was recorded\n");
+}
+#endif
+
 /* ---- wrappers ----------------------------------------------------------- */
 
 int MPI_Init(int *argc, char ***argv)
 {
+    init_seen = 1;
     mc__tap_depth = 1;
     const int rc = PMPI_Init(argc, argv);
     int provided = MPI_THREAD_SINGLE;
@@ -242,6 +265,7 @@ int MPI_Init(int *argc, char ***argv)
 
 int MPI_Init_thread(int *argc, char ***argv, int required, int *provided)
 {
+    init_seen = 1;
     mc__tap_depth = 1;
     const int rc = PMPI_Init_thread(argc, argv, required, provided);
     if (rc == MPI_SUCCESS)

@@ -91,12 +91,21 @@ def test_thread_multiple_records_every_message():
 def test_library_exports_only_mpi_symbols_and_needs_no_hdf5():
     # The version script keeps mc_*, zstd and xxHash symbols local, so they
     # cannot clash with an application's; the tap must not pull in HDF5.
+    # Every C entry point has its Fortran twin and no other is exported.
     nm = subprocess.run(["nm", "-D", "--defined-only", TAP], capture_output=True,
                         text=True, check=True).stdout
     names = [ln.split()[-1] for ln in nm.splitlines() if ln.strip()]
     assert names, "no exported symbols"
-    bad = [n for n in names if not (n.startswith("MPI_") or n.startswith("MPIX_"))]
-    assert not bad, "exported beyond MPI_/MPIX_: %s" % bad[:10]
+    c_names = {n for n in names if n.startswith("MPI_")}
+    # Fortran entry points (tap_fortran*.c): mpi_xxx_ for exactly the C
+    # entry points MPI_Xxx (gfortran's naming of the mpif.h / mpi module
+    # procedures, common practice).
+    f_names = {n for n in names if n.startswith("mpi_") and n.endswith("_")}
+    bad = [n for n in names if not (n in c_names or n in f_names or n.startswith("MPIX_"))]
+    assert not bad, "exported beyond MPI_/MPIX_/mpi_..._: %s" % bad[:10]
+    assert f_names == {n.lower() + "_" for n in c_names}, (
+        "Fortran and C entry points differ: %s" %
+        sorted(f_names ^ {n.lower() + "_" for n in c_names})[:10])
     for wanted in ("MPI_Send", "MPI_Irecv", "MPI_Waitall", "MPI_Alltoallv", "MPI_Put",
                    "MPI_Neighbor_alltoall", "MPIX_Allreduce_init", "MPI_Finalize"):
         assert wanted in names, wanted

@@ -204,9 +204,63 @@ def pcontrol(w, n):
             rec("Sendrecv", RECV, left, 2 * INT, "world", n, 41)]
 
 
+def fortran(w, n):
+    """tap_fortran.f90: the same conventions reached through the Fortran
+    entry points. Fortran INTEGER 4 bytes, DOUBLE PRECISION 8, REAL 4,
+    CHARACTER 1 (gfortran defaults, common practice)."""
+    right, left = (w + 1) % n, (w - 1) % n
+    F_INT, F_DBL, F_REAL, F_CHAR = 4, 8, 4, 1
+    color = w % 2
+    m = len([x for x in range(n) if x % 2 == color])
+    out = [rec("Isend", SEND, right, F_INT * (w + 1) * 3, "world", n, 10),
+           rec("Irecv", RECV, left, F_INT * (left + 1) * 3, "world", n, 10),
+           rec("Sendrecv", SEND, right, 5 * F_DBL, "world", n, 11),
+           rec("Sendrecv", RECV, left, 5 * F_DBL, "world", n, 11),
+           rec("Isend", SEND, right, 8 * F_INT, "world", n, 12),
+           rec("Irecv", RECV, left, 8 * F_INT, "world", n, 12),
+           rec("Send", SEND, right, 1 * F_INT, "world", n, 13),
+           rec("Send", SEND, right, 2 * F_INT, "world", n, 14),
+           rec("Irecv", RECV, left, 1 * F_INT, "world", n, 13),
+           rec("Irecv", RECV, left, 2 * F_INT, "world", n, 14),
+           rec("Isend", SEND, right, 3 * F_INT, "world", n, 15),
+           rec("Irecv", RECV, left, 3 * F_INT, "world", n, 15),
+           rec("Isend", SEND, right, 1 * F_INT, "world", n, 16),
+           rec("Recv", RECV, left, 1 * F_INT, "world", n, 16),
+           rec("Bcast", NONE, -1, 16 * F_CHAR, "world", n),
+           rec("Allreduce", NONE, -1, 10 * F_DBL, "world", n),
+           rec("Allreduce", NONE, -1, 3 * F_INT, "world", n, flags=IN_PLACE),
+           rec("Reduce", NONE, -1, 4 * F_INT, "world", n),
+           rec("Alltoall", NONE, -1, n * F_INT, "world", n),
+           rec("Allgather", NONE, -1, 2 * F_INT, "world", n),
+           rec("Gather", NONE, -1, (n if w == n - 1 else 1) * 2 * F_INT, "world", n),
+           rec("Barrier", NONE, -1, 0, "world", n),
+           rec("Iallreduce", NONE, -1, 7 * F_REAL, "world", n),
+           rec("Allreduce", NONE, -1, 5 * F_INT, "sub%d" % color, m)]
+    out += [rec("Send_init", SEND, right, 6 * F_INT, "world", n, 9)] * 3
+    out += [rec("Recv_init", RECV, left, 6 * F_INT, "world", n, 9)] * 3
+    out += [rec("Ialltoall", NONE, -1, n * 2 * F_INT, "world", n),
+            rec("Igather", NONE, -1, (n if w == 0 else 1) * 3 * F_INT, "world", n),
+            rec("Ireduce", NONE, -1, 4 * F_DBL, "world", n),
+            rec("Iscan", NONE, -1, 2 * F_INT, "world", n),
+            rec("Alltoallw", NONE, -1, n * F_INT, "world", n)]
+    out += [rec("Alltoallw", SEND, j, F_INT, "world", n, flags=PER_PEER) for j in range(n)]
+    # Periodic ring: the -1 then the +1 neighbour (MPI-4.0 8.6, from memory).
+    out += [rec("Neighbor_alltoall", NONE, -1, 2 * 2 * F_DBL, "ring_f", n),
+            rec("Neighbor_alltoall", SEND, left, 2 * F_DBL, "ring_f", n, flags=PER_PEER),
+            rec("Neighbor_alltoall", SEND, right, 2 * F_DBL, "ring_f", n, flags=PER_PEER)]
+    out += [rec("Put", SEND, right, 4 * F_INT, "world", n),
+            rec("Get", RECV, left, 2 * F_INT, "world", n),
+            rec("Accumulate", SEND, right, 3 * F_INT, "world", n),
+            rec("Isend", SEND, right, 3 * F_INT, "world", n, 20),
+            rec("Mrecv", RECV, left, 3 * F_INT, "world", n, 20),
+            rec("Allreduce", NONE, -1, 1 * F_INT, "shm", n),
+            rec("Allreduce", NONE, -1, 2 * F_INT, "dupi", n)]
+    return out
+
+
 SCENARIOS = {"ring": ring, "p2pmore": p2pmore, "halo": halo, "sendrecv": sendrecv, "coll": coll,
              "persist": persist, "rma": rma, "neighbor": neighbor,
-             "comms": comms, "errors": errors, "pcontrol": pcontrol}
+             "comms": comms, "errors": errors, "pcontrol": pcontrol, "fortran": fortran}
 
 
 ORDER = ("ring", "p2pmore", "halo", "sendrecv", "coll", "persist", "rma", "neighbor",
