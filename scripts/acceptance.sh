@@ -59,27 +59,12 @@ for p in $RANKS; do
 done
 
 echo "== compare every dataset with the first summary (h5py)"
-/usr/bin/python3 - "${sums[@]}" <<'EOF'
+MC_CLI=$CLI /usr/bin/python3 - "$src/tests/reduce" "${sums[@]}" <<'EOF'
 import sys
+sys.path.insert(0, sys.argv.pop(1))
 import h5py  # Debian python3-h5py
 import numpy as np  # Debian python3-numpy
-
-def datasets(path):
-    out = {}
-    def visit(name, obj):
-        if isinstance(obj, h5py.Dataset):
-            out[name] = obj[...]
-    with h5py.File(path, "r") as h:
-        h.visititems(visit)
-    return out
-
-def same(a, b):
-    if a.dtype != b.dtype or a.shape != b.shape:
-        return False
-    if a.dtype.hasobject or (a.dtype.names and any(
-            a.dtype[n].hasobject for n in a.dtype.names)):
-        return a.tolist() == b.tolist()
-    return a.tobytes() == b.tobytes()  # bit-identical, NaN-safe
+from reduce_common import datasets, same  # bit-identical, NaN-safe
 
 ref = datasets(sys.argv[1])
 bad = 0

@@ -5,6 +5,7 @@ import os
 import shlex
 import subprocess
 
+import h5py  # Debian python3-h5py
 import numpy as np  # Debian python3-numpy
 
 CLI = os.environ["MC_CLI"]
@@ -81,3 +82,26 @@ def flip_byte(path, offset):
         b = f.read(1)
         f.seek(offset)
         f.write(bytes([b[0] ^ 0xFF]))
+
+
+def datasets(path):
+    """Every dataset of an HDF5 file, by path, read with h5py."""
+    out = {}
+
+    def visit(name, obj):
+        if isinstance(obj, h5py.Dataset):
+            out[name] = obj[...]
+    with h5py.File(path, "r") as h:
+        h.visititems(visit)
+    return out
+
+
+def same(a, b):
+    """Bit-identical datasets: the raw bytes (NaN-safe), and for
+    variable-length strings the decoded values."""
+    if a.dtype != b.dtype or a.shape != b.shape:
+        return False
+    if a.dtype.hasobject or (a.dtype.names and any(
+            a.dtype[n].hasobject for n in a.dtype.names)):
+        return a.tolist() == b.tolist()
+    return a.tobytes() == b.tobytes()

@@ -23,8 +23,8 @@ import h5py  # Debian python3-h5py
 import numpy as np  # Debian python3-numpy
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from reduce_common import (block_checksums, campaign_files, reduce_cmd,
-                           records_of_file, run, synth)
+from reduce_common import (block_checksums, campaign_files, datasets,
+                           reduce_cmd, records_of_file, run, same, synth)
 
 
 def test_totals(tmp):
@@ -59,28 +59,6 @@ def test_totals(tmp):
     assert line, r.stderr
     nsplit = int(line[0].split(" units, ")[1].split()[0])
     assert nsplit >= 1, line[0]
-
-
-def datasets(path):
-    out = {}
-
-    def visit(name, obj):
-        if isinstance(obj, h5py.Dataset):
-            out[name] = obj[...]
-    with h5py.File(path, "r") as h:
-        h.visititems(visit)
-    return out
-
-
-def same(a, b):
-    """Bit-identical datasets: the raw bytes (NaN-safe), and for
-    variable-length strings the decoded values."""
-    if a.dtype != b.dtype or a.shape != b.shape:
-        return False
-    if a.dtype.hasobject or (a.dtype.names and any(
-            a.dtype[n].hasobject for n in a.dtype.names)):
-        return a.tolist() == b.tolist()
-    return a.tobytes() == b.tobytes()
 
 
 def test_formats(tmp):
