@@ -255,12 +255,94 @@ def fortran(w, n):
             rec("Mrecv", RECV, left, 3 * F_INT, "world", n, 20),
             rec("Allreduce", NONE, -1, 1 * F_INT, "shm", n),
             rec("Allreduce", NONE, -1, 2 * F_INT, "dupi", n)]
+    # 16. the other sends and completion calls
+    for op, cnt, tag in (("Ssend", 1, 30), ("Bsend", 2, 31), ("Rsend", 3, 32),
+                         ("Issend", 1, 33), ("Ibsend", 1, 34), ("Irsend", 1, 35)):
+        out += [rec(op, SEND, right, cnt * F_INT, "world", n, tag),
+                rec("Irecv", RECV, left, cnt * F_INT, "world", n, tag)]
+    out += [rec("Barrier", NONE, -1, 0, "world", n)] * 3
+    out += [rec("Bsend_init", SEND, right, 2 * F_INT, "world", n, 39),
+            rec("Irecv", RECV, left, 2 * F_INT, "world", n, 39),
+            rec("Rsend_init", SEND, right, 3 * F_INT, "world", n, 41),
+            rec("Irecv", RECV, left, 3 * F_INT, "world", n, 41),
+            rec("Allreduce", NONE, -1, 13 * F_INT, "dup", n)]
+    out += [rec("Sendrecv_replace", SEND, right, 2 * F_INT, "world", n, 36),
+            rec("Sendrecv_replace", RECV, left, 2 * F_INT, "world", n, 36),
+            rec("Ssend_init", SEND, right, F_INT, "world", n, 37),
+            rec("Recv_init", RECV, left, F_INT, "world", n, 37),
+            rec("Isend", SEND, right, 2 * F_INT, "world", n, 38),
+            rec("Imrecv", RECV, left, 2 * F_INT, "world", n, 38)]
+    # 17. the other collectives, one integer per block
+    root = w == 0
+    out += [rec("Scatter", NONE, -1, (n if root else 1) * 2 * F_INT, "world", n),
+            rec("Gatherv", NONE, -1, (n if root else 1) * F_INT, "world", n),
+            rec("Scatterv", NONE, -1, (n if root else 1) * F_INT, "world", n),
+            rec("Allgatherv", NONE, -1, F_INT, "world", n),
+            rec("Alltoallv", NONE, -1, n * F_INT, "world", n),
+            rec("Reduce_scatter", NONE, -1, n * F_INT, "world", n),
+            rec("Reduce_scatter_block", NONE, -1, n * F_INT, "world", n),
+            rec("Scan", NONE, -1, F_INT, "world", n),
+            rec("Exscan", NONE, -1, F_INT, "world", n),
+            rec("Ibarrier", NONE, -1, 0, "world", n),
+            rec("Ibcast", NONE, -1, 3 * F_INT, "world", n),
+            rec("Iexscan", NONE, -1, F_INT, "world", n),
+            rec("Ireduce_scatter", NONE, -1, n * F_INT, "world", n),
+            rec("Ireduce_scatter_block", NONE, -1, n * F_INT, "world", n),
+            rec("Iscatter", NONE, -1, (n if root else 1) * F_INT, "world", n),
+            rec("Iscatterv", NONE, -1, (n if root else 1) * F_INT, "world", n),
+            rec("Igatherv", NONE, -1, (n if root else 1) * F_INT, "world", n),
+            rec("Iallgather", NONE, -1, F_INT, "world", n),
+            rec("Iallgatherv", NONE, -1, F_INT, "world", n),
+            rec("Ialltoallv", NONE, -1, n * F_INT, "world", n),
+            rec("Ialltoallw", NONE, -1, n * F_INT, "world", n)]
+    for op in ("Alltoallv", "Ialltoallv", "Ialltoallw"):
+        out += [rec(op, SEND, j, F_INT, "world", n, flags=PER_PEER) for j in range(n)]
+    # 18. topologies: a line (non-periodic, through Cart_sub) and a ring
+    line = [p for p in (w - 1, w + 1) if 0 <= p < n]
+    for op, cnt in (("Neighbor_allgather", 3), ("Ineighbor_allgather", 1)):
+        out.append(rec(op, NONE, -1, cnt * F_INT * len(line), "line_s", n))
+        out += [rec(op, SEND, p, cnt * F_INT, "line_s", n, flags=PER_PEER) for p in line]
+    # ring: destination 0 is the -1 neighbour, destination 1 the +1 one;
+    # cnt3 = (1, 2) integers per destination for the v and w forms.
+    for op in ("Neighbor_allgatherv", "Ineighbor_allgatherv"):
+        out.append(rec(op, NONE, -1, 2 * 2 * F_INT, "ring_g", n))
+        out += [rec(op, SEND, p, 2 * F_INT, "ring_g", n, flags=PER_PEER) for p in (left, right)]
+    for op in ("Neighbor_alltoallv", "Neighbor_alltoallw"):
+        out.append(rec(op, NONE, -1, 3 * F_INT, "ring_g", n))
+        out += [rec(op, SEND, left, 1 * F_INT, "ring_g", n, flags=PER_PEER),
+                rec(op, SEND, right, 2 * F_INT, "ring_g", n, flags=PER_PEER)]
+    for op in ("Ineighbor_alltoallv", "Ineighbor_alltoallw"):  # 2 integers each way
+        out.append(rec(op, NONE, -1, 4 * F_INT, "ring_g", n))
+        out += [rec(op, SEND, p, 2 * F_INT, "ring_g", n, flags=PER_PEER) for p in (left, right)]
+    out.append(rec("Ineighbor_alltoall", NONE, -1, 2 * F_INT, "ring_g", n))
+    out += [rec("Ineighbor_alltoall", SEND, p, F_INT, "ring_g", n, flags=PER_PEER)
+            for p in (left, right)]
+    for cnt, sym in ((6, "graph"), (7, "dist_adj"), (8, "dist"), (9, "created"),
+                     (10, "created_group")):
+        out.append(rec("Allreduce", NONE, -1, cnt * F_INT, sym, n))
+    if n >= 2:
+        mine = len([x for x in range(n) if x % 2 == w % 2])
+        out += [rec("Allreduce", NONE, -1, F_INT, "inter", mine),
+                rec("Allreduce", NONE, -1, 11 * F_INT, "merged", n)]
+    # 19. request-based and atomic one-sided calls
+    out += [rec("Rput", SEND, right, 2 * F_INT, "world", n),
+            rec("Rget", RECV, left, F_INT, "world", n),
+            rec("Raccumulate", SEND, right, F_INT, "world", n),
+            rec("Rget_accumulate", SEND, right, F_INT, "world", n),
+            rec("Rget_accumulate", RECV, right, F_INT, "world", n),
+            rec("Get_accumulate", SEND, right, 2 * F_INT, "world", n),
+            rec("Get_accumulate", RECV, right, 2 * F_INT, "world", n),
+            rec("Fetch_and_op", SEND, right, F_INT, "world", n),
+            rec("Fetch_and_op", RECV, right, F_INT, "world", n),
+            rec("Compare_and_swap", SEND, left, 2 * F_INT, "world", n),
+            rec("Compare_and_swap", RECV, left, F_INT, "world", n)]
     return out
 
 
 SCENARIOS = {"ring": ring, "p2pmore": p2pmore, "halo": halo, "sendrecv": sendrecv, "coll": coll,
              "persist": persist, "rma": rma, "neighbor": neighbor,
-             "comms": comms, "errors": errors, "pcontrol": pcontrol, "fortran": fortran}
+             "comms": comms, "errors": errors, "pcontrol": pcontrol, "fortran": fortran,
+             "fortran_thread": fortran}
 
 
 ORDER = ("ring", "p2pmore", "halo", "sendrecv", "coll", "persist", "rma", "neighbor",
