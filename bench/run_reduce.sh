@@ -60,14 +60,15 @@ if [ -d /dev/shm ] && [ -w /dev/shm ]; then SUMDIR=$(mktemp -d /dev/shm/mc-bench
 # reduce_secs NP DIR [OUTDIR]: the reducer's own elapsed time (plan to
 # rename, no MPI start-up), parsed from its result line; its read phase
 # (plan done to every rank done reading, from -v) is appended to
-# $WORK/read.NP. NP 0 = without mpirun.
+# $WORK/read.NP, or $WORK/read.NP.out when OUTDIR is given. NP 0 = without
+# mpirun.
 reduce_secs() {
     local np=$1 dir=$2 out=${3:-$SUMDIR}/r.h5 lines
     rm -f "$out"
     if [ "$np" = 0 ]; then lines=$("$CLI" reduce -v "$dir" -o "$out" 2>&1 >/dev/null)
     else lines=$($MPIRUN -np "$np" "$CLI" reduce -v "$dir" -o "$out" 2>&1 >/dev/null); fi
     rm -f "$out"
-    echo "$lines" | sed -n 's/^reduce: phases: .* read \([0-9.]*\) s.*/\1/p' | tail -1 >>"$WORK/read.$np"
+    echo "$lines" | sed -n 's/^reduce: phases: .* read \([0-9.]*\) s.*/\1/p' | tail -1 >>"$WORK/read.$np${3:+.out}"
     echo "$lines" | grep '^reduce:.* in ' | tail -1 | sed -n 's/.* in \([0-9.]*\) s .*/\1/p'
 }
 rate() { echo "$1 / $2 / 1048576" | bc -l | xargs printf '%.0f'; } # MiB/s
@@ -108,9 +109,7 @@ T_CAT=$(median <"$WORK/t.0")
 T_R1=$(median <"$WORK/t.1")
 T_R2=$(median <"$WORK/t.2")
 T_R1D=$(median <"$WORK/t.3")
-# read.0 holds the runs of both single-rank commands: its first of every
-# two lines are the memory file system's
-RD_R1=$(awk 'NR % 2 == 1' "$WORK/read.0" | median)
+RD_R1=$(median <"$WORK/read.0")
 RD_R2=$(median <"$WORK/read.2")
 W_R1=$(runs time_cmd sh -c "rm -f $SUMDIR/w.h5; $CLI reduce -q $WORK/unc -o $SUMDIR/w.h5" | median)
 W_R2=$(runs time_cmd sh -c "rm -f $SUMDIR/w.h5; $MPIRUN -np 2 $CLI reduce -q $WORK/unc -o $SUMDIR/w.h5" | median)

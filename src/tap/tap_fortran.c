@@ -69,11 +69,10 @@ F_SEND(mpi_rsend_, MPI_Rsend)
                MPI_Fint *tag, MPI_Fint *comm, MPI_Fint *req, MPI_Fint *ierr)   \
     {                                                                          \
         MPI_Request r = MPI_REQUEST_NULL;                                      \
-        const int rc = cname(mc_f_buf(buf), (int)*count, MC_F_TYPE(dt),        \
-                             (int)*dest, (int)*tag, MC_F_COMM(comm), &r);      \
-        if (rc == MPI_SUCCESS)                                                 \
-            *req = PMPI_Request_c2f(r);                                        \
-        mc_f_set(ierr, rc);                                                    \
+        mc_f_set(ierr,                                                         \
+                 mc_f_req(cname(mc_f_buf(buf), (int)*count, MC_F_TYPE(dt),     \
+                                (int)*dest, (int)*tag, MC_F_COMM(comm), &r),   \
+                          &r, req));                                           \
     }
 F_ISEND(mpi_isend_, MPI_Isend)
 F_ISEND(mpi_ibsend_, MPI_Ibsend)

@@ -122,38 +122,21 @@ void mpi_alltoallv_(void *sbuf, MPI_Fint *scounts, MPI_Fint *sdispls,
                            (int *)rdispls, MC_F_TYPE(rtype), MC_F_COMM(comm)));
 }
 
-/* Nonblocking forms of the most used collectives. */
+/* Nonblocking forms of the most used collectives (the others below). */
 void mpi_ibarrier_(MPI_Fint *comm, MPI_Fint *req, MPI_Fint *ierr)
 {
     MPI_Request r = MPI_REQUEST_NULL;
-    const int rc = MPI_Ibarrier(MC_F_COMM(comm), &r);
-    if (rc == MPI_SUCCESS)
-        *req = PMPI_Request_c2f(r);
-    mc_f_set(ierr, rc);
+    mc_f_set(ierr, mc_f_req(MPI_Ibarrier(MC_F_COMM(comm), &r), &r, req));
 }
 
 void mpi_ibcast_(void *buf, MPI_Fint *count, MPI_Fint *dt, MPI_Fint *root,
                  MPI_Fint *comm, MPI_Fint *req, MPI_Fint *ierr)
 {
     MPI_Request r = MPI_REQUEST_NULL;
-    const int rc = MPI_Ibcast(mc_f_buf(buf), (int)*count, MC_F_TYPE(dt),
-                              (int)*root, MC_F_COMM(comm), &r);
-    if (rc == MPI_SUCCESS)
-        *req = PMPI_Request_c2f(r);
-    mc_f_set(ierr, rc);
-}
-
-void mpi_iallreduce_(void *sbuf, void *rbuf, MPI_Fint *count, MPI_Fint *dt,
-                     MPI_Fint *op, MPI_Fint *comm, MPI_Fint *req,
-                     MPI_Fint *ierr)
-{
-    MPI_Request r = MPI_REQUEST_NULL;
-    const int rc =
-        MPI_Iallreduce(mc_f_buf(sbuf), mc_f_buf(rbuf), (int)*count,
-                       MC_F_TYPE(dt), MC_F_OP(op), MC_F_COMM(comm), &r);
-    if (rc == MPI_SUCCESS)
-        *req = PMPI_Request_c2f(r);
-    mc_f_set(ierr, rc);
+    mc_f_set(ierr,
+             mc_f_req(MPI_Ibcast(mc_f_buf(buf), (int)*count, MC_F_TYPE(dt),
+                                 (int)*root, MC_F_COMM(comm), &r),
+                      &r, req));
 }
 
 void mpi_neighbor_allgatherv_(void *sbuf, MPI_Fint *scount, MPI_Fint *stype,
@@ -223,11 +206,11 @@ static int degrees_of(MPI_Comm c, int *nsend, int *nrecv)
 
 /* The C datatype arrays of a w collective: @ns send and @nr receive types
  * (the send side is not read with MPI_IN_PLACE). */
-static int w_types(MPI_Fint *sbuf_is, MPI_Fint *stypes, MPI_Fint *rtypes,
-                   int ns, int nr, MPI_Datatype **st, MPI_Datatype **rt)
+static int w_types(void *sbuf, MPI_Fint *stypes, MPI_Fint *rtypes, int ns,
+                   int nr, MPI_Datatype **st, MPI_Datatype **rt)
 {
     *st = NULL;
-    if (mc_f_buf(sbuf_is) != MPI_IN_PLACE &&
+    if (mc_f_buf(sbuf) != MPI_IN_PLACE &&
         !(*st = mc__tap_f_types(MC_TAP_SCRATCH_F_STYPES, stypes, ns)))
         return MPI_ERR_NO_MEM;
     if (!(*rt = mc__tap_f_types(MC_TAP_SCRATCH_F_RTYPES, rtypes, nr)))
@@ -286,6 +269,7 @@ void mpi_neighbor_alltoallw_(void *sbuf, MPI_Fint *scounts, MPI_Aint *sdispls,
                                       MC_F_COMM(comm), &r),                    \
                                 &r, req));                                     \
     }
+I_ALLRED(mpi_iallreduce_, MPI_Iallreduce)
 I_ALLRED(mpi_iscan_, MPI_Iscan)
 I_ALLRED(mpi_iexscan_, MPI_Iexscan)
 I_ALLRED(mpi_ireduce_scatter_block_, MPI_Ireduce_scatter_block)

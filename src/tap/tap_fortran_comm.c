@@ -13,55 +13,57 @@
 void mpi_comm_dup_(MPI_Fint *comm, MPI_Fint *newcomm, MPI_Fint *ierr)
 {
     MPI_Comm nc = MPI_COMM_NULL;
-    const int rc = MPI_Comm_dup(MC_F_COMM(comm), &nc);
-    if (rc == MPI_SUCCESS)
-        *newcomm = PMPI_Comm_c2f(nc);
-    mc_f_set(ierr, rc);
+    mc_f_set(ierr,
+             mc_f_newcomm(MPI_Comm_dup(MC_F_COMM(comm), &nc), &nc, newcomm));
 }
 
 void mpi_comm_split_(MPI_Fint *comm, MPI_Fint *color, MPI_Fint *key,
                      MPI_Fint *newcomm, MPI_Fint *ierr)
 {
     MPI_Comm nc = MPI_COMM_NULL;
-    const int rc = MPI_Comm_split(MC_F_COMM(comm), (int)*color, (int)*key, &nc);
-    if (rc == MPI_SUCCESS)
-        *newcomm = PMPI_Comm_c2f(nc);
-    mc_f_set(ierr, rc);
+    mc_f_set(ierr, mc_f_newcomm(MPI_Comm_split(MC_F_COMM(comm), (int)*color,
+                                               (int)*key, &nc),
+                                &nc, newcomm));
 }
 
 void mpi_comm_create_(MPI_Fint *comm, MPI_Fint *group, MPI_Fint *newcomm,
                       MPI_Fint *ierr)
 {
     MPI_Comm nc = MPI_COMM_NULL;
-    const int rc =
-        MPI_Comm_create(MC_F_COMM(comm), PMPI_Group_f2c(*group), &nc);
-    if (rc == MPI_SUCCESS)
-        *newcomm = PMPI_Comm_c2f(nc);
-    mc_f_set(ierr, rc);
+    mc_f_set(ierr, mc_f_newcomm(MPI_Comm_create(MC_F_COMM(comm),
+                                                PMPI_Group_f2c(*group), &nc),
+                                &nc, newcomm));
+}
+
+/* Fortran LOGICALs @f[0..n) as C ints: gfortran's .TRUE. is 1, .FALSE. 0,
+ * and any nonzero value is taken as true, as Open MPI's binding does. In
+ * @small when n <= 16, else in memory the caller frees (the result !=
+ * small); NULL when out of memory. */
+static int *f_logicals(const MPI_Fint *f, int n, int small[16])
+{
+    int *c = n <= 16 ? small : malloc((size_t)n * sizeof *c);
+    if (c)
+        for (int i = 0; i < n; i++)
+            c[i] = f[i] != 0;
+    return c;
 }
 
 void mpi_cart_create_(MPI_Fint *comm, MPI_Fint *ndims, MPI_Fint *dims,
                       MPI_Fint *periods, MPI_Fint *reorder, MPI_Fint *newcomm,
                       MPI_Fint *ierr)
 {
-    /* Fortran LOGICALs: gfortran's .TRUE. is 1, .FALSE. 0; any nonzero
-     * value is taken as true, as Open MPI's binding does. */
     const int n = (int)*ndims;
-    int per_small[16], *per = per_small;
-    if (n > 16 && !(per = malloc((size_t)n * sizeof *per))) {
+    int small[16], *per = f_logicals(periods, n, small);
+    if (!per) {
         mc_f_set(ierr, MPI_ERR_NO_MEM);
         return;
     }
-    for (int i = 0; i < n; i++)
-        per[i] = periods[i] != 0;
     MPI_Comm nc = MPI_COMM_NULL;
     const int rc = MPI_Cart_create(MC_F_COMM(comm), n, (int *)dims, per,
                                    *reorder != 0, &nc);
-    if (per != per_small)
+    if (per != small)
         free(per);
-    if (rc == MPI_SUCCESS)
-        *newcomm = PMPI_Comm_c2f(nc);
-    mc_f_set(ierr, rc);
+    mc_f_set(ierr, mc_f_newcomm(rc, &nc, newcomm));
 }
 
 void mpi_cart_sub_(MPI_Fint *comm, MPI_Fint *remain, MPI_Fint *newcomm,
@@ -73,20 +75,16 @@ void mpi_cart_sub_(MPI_Fint *comm, MPI_Fint *remain, MPI_Fint *newcomm,
         mc_f_set(ierr, rc);
         return;
     }
-    int rem_small[16], *rem = rem_small;
-    if (ndims > 16 && !(rem = malloc((size_t)ndims * sizeof *rem))) {
+    int small[16], *rem = f_logicals(remain, ndims, small);
+    if (!rem) {
         mc_f_set(ierr, MPI_ERR_NO_MEM);
         return;
     }
-    for (int i = 0; i < ndims; i++)
-        rem[i] = remain[i] != 0;
     MPI_Comm nc = MPI_COMM_NULL;
     rc = MPI_Cart_sub(MC_F_COMM(comm), rem, &nc);
-    if (rem != rem_small)
+    if (rem != small)
         free(rem);
-    if (rc == MPI_SUCCESS)
-        *newcomm = PMPI_Comm_c2f(nc);
-    mc_f_set(ierr, rc);
+    mc_f_set(ierr, mc_f_newcomm(rc, &nc, newcomm));
 }
 
 void mpi_comm_dup_with_info_(MPI_Fint *comm, MPI_Fint *info, MPI_Fint *newcomm,

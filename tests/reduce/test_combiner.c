@@ -85,9 +85,18 @@ static int miss_count_only(void *ctx, mc__comb_slot *s, uint64_t size,
     return 0;
 }
 
+/* The loop's table and key table, made fresh by each test. */
+static mc__comb_slot comb[MC__COMB_SLOTS];
+static uint16_t keys[MC__REC_KEYS_LEN];
+
+static void fresh(void)
+{
+    mc__comb_init(comb);
+    mc__rec_keys_init(keys);
+}
+
 /* 1 when the loop accepts the single record @r. */
-static int loop_accepts(mc__comb_slot *comb, const uint16_t *keys,
-                        const mc_record *r)
+static int loop_accepts(const mc_record *r)
 {
     size_t stop = 99;
     assert_int_equal(
@@ -100,10 +109,7 @@ static int loop_accepts(mc__comb_slot *comb, const uint16_t *keys,
 static void test_check_every_op_and_dir(void **state)
 {
     (void)state;
-    static mc__comb_slot comb[MC__COMB_SLOTS];
-    static uint16_t keys[MC__REC_KEYS_LEN];
-    mc__comb_init(comb);
-    mc__rec_keys_init(keys);
+    fresh();
     const unsigned char *known = mc_op_known_table();
     size_t valid = 0;
     for (unsigned op = 0; op <= 0xffffu; op++)
@@ -111,7 +117,7 @@ static void test_check_every_op_and_dir(void **state)
             const mc_record r = base(op, dir);
             const int want = mc_record_valid(&r, known);
             assert_int_equal(want, mc_record_check(&r, NULL) == 0);
-            assert_int_equal(loop_accepts(comb, keys, &r), want);
+            assert_int_equal(loop_accepts(&r), want);
             valid += (size_t)want;
         }
     /* docs/trace-format.md: three directions for every known op code. */
@@ -125,10 +131,7 @@ static void test_check_every_op_and_dir(void **state)
 static void test_check_random_records(void **state)
 {
     (void)state;
-    static mc__comb_slot comb[MC__COMB_SLOTS];
-    static uint16_t keys[MC__REC_KEYS_LEN];
-    mc__comb_init(comb);
-    mc__rec_keys_init(keys);
+    fresh();
     const unsigned char *known = mc_op_known_table();
     size_t nvalid = 0, ninvalid = 0;
     for (int i = 0; i < 2000000; i++) {
@@ -148,7 +151,7 @@ static void test_check_random_records(void **state)
             r.dir = (uint8_t)(y >> 48);
         const int want = mc_record_valid(&r, known);
         assert_int_equal(want, mc_record_check(&r, NULL) == 0);
-        assert_int_equal(loop_accepts(comb, keys, &r), want);
+        assert_int_equal(loop_accepts(&r), want);
         if (want)
             nvalid++;
         else
@@ -209,10 +212,7 @@ static void test_counts_equal_plain_count(void **state)
                                        (uint64_t)(uint32_t)r.peer << 32,
                                    r.bytes, 1};
     }
-    static mc__comb_slot comb[MC__COMB_SLOTS];
-    static uint16_t keys[MC__REC_KEYS_LEN];
-    mc__comb_init(comb);
-    mc__rec_keys_init(keys);
+    fresh();
     sink got = {NULL, 0, 0};
     for (size_t i = 0; i < n;) {
         const size_t len = 1 + next() % 20000;
@@ -243,10 +243,7 @@ static void test_counts_equal_plain_count(void **state)
 static void test_stops_at_invalid(void **state)
 {
     (void)state;
-    static mc__comb_slot comb[MC__COMB_SLOTS];
-    static uint16_t keys[MC__REC_KEYS_LEN];
-    mc__comb_init(comb);
-    mc__rec_keys_init(keys);
+    fresh();
     mc_record recs[10];
     for (int i = 0; i < 10; i++)
         recs[i] = base(MC_OP_Send, MC_DIR_SEND);
